@@ -1,0 +1,115 @@
+"""Registered algorithm: thermal state of the lithosphere per cell."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+
+import numpy as np
+
+from geomelt.algorithms.base import Algorithm
+from geomelt.layers import OutputLayer
+from geomelt.parameters import ThermalParameters
+from geomelt.physics.thermal_state import thermal_state
+
+__all__ = ["THERMAL_STATE", "isotherm_layer_name", "temperature_layer_name"]
+
+
+def _number_token(value: float) -> str:
+    """``5.0 -> '5'``, ``2.5 -> '2p5'`` (no dots in file names)."""
+    return f"{value:g}".replace(".", "p").replace("-", "m")
+
+
+def temperature_layer_name(depth_km: float) -> str:
+    """Output name of the temperature map at ``depth_km``."""
+    return f"temperature_{_number_token(depth_km)}km_c"
+
+
+def isotherm_layer_name(temperature_c: float) -> str:
+    """Output name of the depth map of the ``temperature_c`` isotherm."""
+    return f"isotherm_{_number_token(temperature_c)}c_depth_km"
+
+
+def _outputs(params: ThermalParameters) -> tuple[OutputLayer, ...]:
+    fixed = (
+        OutputLayer(
+            "moho_temperature_c", "degC", "Moho temperature",
+            "Temperature at the base of the crust from the steady geotherm (conductive above "
+            "the thermal lithosphere base, mantle adiabat below)",
+        ),
+        OutputLayer(
+            "lab_depth_km", "km", "Thermal lithosphere base depth",
+            "Depth where the conductive geotherm meets the mantle adiabat (continents) or the "
+            "half-space thermal boundary-layer base (oceanic cells); nodata where deeper than "
+            "the search limit",
+        ),
+        OutputLayer(
+            "moho_heat_flow_mw_m2", "mW m-2", "Heat flow at the Moho",
+            "Conductive heat flow entering the crust from below",
+        ),
+        OutputLayer(
+            "oceanic_plate_age_ma", "Ma", "Plate age implied by heat flow (oceanic cells)",
+            "Age of oceanic lithosphere whose GDH1 heat flow equals the observed heat flow; "
+            "nodata for continental cells",
+        ),
+    )
+    temps = tuple(
+        OutputLayer(
+            temperature_layer_name(d), "degC", f"Temperature at {d:g} km depth",
+            f"Steady-state temperature {d:g} km below the surface",
+        )
+        for d in params.temperature_depths_km
+    )
+    isos = tuple(
+        OutputLayer(
+            isotherm_layer_name(t), "km", f"Depth of the {t:g} degC isotherm",
+            f"Shallowest depth where the geotherm reaches {t:g} degC",
+        )
+        for t in params.isotherms_c
+    )
+    return fixed + temps + isos
+
+
+def _compute(arrays: Mapping[str, np.ndarray], params: ThermalParameters) -> dict:
+    state = thermal_state(arrays["crustal_thickness_km"], arrays["heat_flow_mw_m2"], params)
+    out = {
+        "moho_temperature_c": state["moho_temperature_c"],
+        "lab_depth_km": state["lab_depth_km"],
+        "moho_heat_flow_mw_m2": state["moho_heat_flow_mw_m2"],
+        "oceanic_plate_age_ma": state["plate_age_ma"],
+    }
+    for i, d in enumerate(params.temperature_depths_km):
+        out[temperature_layer_name(d)] = state["temperature_at_depths_c"][i]
+    for i, t in enumerate(params.isotherms_c):
+        out[isotherm_layer_name(t)] = state["isotherm_depths_km"][i]
+    return out
+
+
+THERMAL_STATE = Algorithm(
+    id="thermal_state",
+    version="1.0",
+    title="Lithosphere thermal state",
+    description=(
+        "Steady-state geotherm per cell from surface heat flow and crustal thickness: "
+        "continental conduction with radiogenic heat production decreasing with depth, "
+        "surface heat flow split into crustal and mantle parts, a mantle adiabat from the "
+        "potential temperature below the thermal lithosphere, and half-space cooling for "
+        "oceanic cells. Gives Moho temperature, thermal lithosphere base, temperatures at "
+        "chosen depths and depths of chosen isotherms."
+    ),
+    inputs=("crustal_thickness_km", "heat_flow_mw_m2"),
+    parameters=ThermalParameters,
+    outputs=_outputs,
+    compute=_compute,
+    references=(
+        "Turcotte, D.L. & Schubert, G. (2002) Geodynamics, 2nd ed., sections 4-8 and 4-16",
+        "Hasterok, D. & Chapman, D.S. (2011) Heat production and geotherms for the continental "
+        "lithosphere. EPSL 307, 59-70",
+        "Pollack, H.N. & Chapman, D.S. (1977) On the regional variation of heat flow, geotherms "
+        "and lithospheric thickness. Tectonophysics 38, 279-296",
+        "Stein, C.A. & Stein, S. (1992) A model for the global variation in oceanic depth and "
+        "heat flow with lithospheric age. Nature 359, 123-129",
+        "Herzberg, C., Condie, K. & Korenaga, J. (2010) Thermal history of the Earth and its "
+        "petrological expression. EPSL 292, 79-88",
+    ),
+    keywords=("geotherm", "heat flow", "lithosphere", "Moho temperature"),
+)

@@ -1,0 +1,96 @@
+"""``geomelt run``: run every registered algorithm over a region."""
+
+from __future__ import annotations
+
+import json
+import sys
+from pathlib import Path
+
+import click
+
+import geomelt
+from geomelt.cli.options import handle_errors, parse_assignments, verbosity
+from geomelt.io.config import load_config, parse_value
+from geomelt.pipeline import RunResult, execute_run, plan_run
+
+
+def _fmt(value) -> str:
+    if value is None:
+        return "-"
+    return f"{value:.4g}"
+
+
+def print_summary(result: RunResult) -> None:
+    """Closing summary on stdout: files, value ranges, warnings, caution."""
+    click.echo(f"geomelt {geomelt.__version__}: wrote {len(result.files)} file(s) to {result.out_dir}")
+    click.echo(f"grid: {result.grid.describe()}; {result.elapsed_s:.1f} s")
+    width = max(len(n) for n in result.stats) + 4
+    click.echo(f"{'output':<{width}} {'min':>10} {'mean':>10} {'max':>10}  unit     nodata %")
+    for name, st in result.stats.items():
+        d = st.as_dict()
+        total = st.valid_cells + st.nodata_cells
+        pct = 100.0 * st.nodata_cells / total if total else 0.0
+        click.echo(
+            f"{name + '.tif':<{width}} {_fmt(d['min']):>10} {_fmt(d['mean']):>10} "
+            f"{_fmt(d['max']):>10}  {st.unit:<8} {pct:6.1f}"
+        )
+    click.echo("results.gpkg: run_metadata table (inputs with checksums, parameters, warnings)")
+    if result.warnings:
+        click.echo(f"{len(result.warnings)} warning(s):")
+        for text in result.warnings:
+            click.echo(f"  - {text}")
+    else:
+        click.echo("no warnings")
+    click.echo(f"CAUTION: {geomelt.CAUTION}")
+
+
+@click.command("run")
+@click.argument("config", type=click.Path(dir_okay=False, path_type=Path))
+@click.option(
+    "-o", "--out", "out_dir", required=True, type=click.Path(file_okay=False, path_type=Path),
+    help="Output folder (created; refused if it exists and is not empty, unless --overwrite).",
+)
+@click.option("--overwrite", is_flag=True, help="Replace geomelt outputs in an existing folder.")
+@click.option(
+    "-i", "--input", "inputs", multiple=True, metavar="NAME=PATH",
+    help="Override an input layer, e.g. -i heat_flow_mw_m2=hf.tif (repeatable).",
+)
+@click.option(
+    "-p", "--param", "params", multiple=True, metavar="NAME=VALUE",
+    help="Override a parameter, e.g. -p mantle_potential_temperature_c=1400 (repeatable). "
+    "Values are TOML: numbers, [lists], text.",
+)
+@click.option(
+    "-a", "--algorithm", "algorithm_ids", multiple=True, metavar="ID",
+    help="Run only this algorithm and those it depends on (repeatable; default: all).",
+)
+@click.option("--block-size", type=int, default=None, help="Window size in cells (multiple of 16).")
+@click.option(
+    "--progress/--no-progress", default=None,
+    help="Progress bar on stderr (default: only when stderr is a terminal).",
+)
+@click.option(
+    "-n", "--dry-run", is_flag=True,
+    help="Check the configuration and inputs, print the plan as JSON, write nothing.",
+)
+@verbosity
+@handle_errors
+def run_cmd(config, out_dir, overwrite, inputs, params, algorithm_ids, block_size, progress, dry_run):
+    """Compute the maps for the region described by CONFIG (a TOML file).
+
+    Writes one GeoTIFF per quantity and results.gpkg into the output folder.
+    """
+    cfg = load_config(config)
+    run_over = {"block_size": block_size} if block_size is not None else {}
+    cfg = cfg.with_overrides(
+        inputs=parse_assignments(inputs, "--input"),
+        parameters={k: parse_value(v) for k, v in parse_assignments(params, "--param").items()},
+        run=run_over,
+    )
+    plan = plan_run(cfg, list(algorithm_ids) or None)
+    if dry_run:
+        click.echo(json.dumps(plan.as_dict(), indent=2, allow_nan=False))
+        return
+    show = sys.stderr.isatty() if progress is None else progress
+    result = execute_run(plan, out_dir, overwrite=overwrite, progress=show)
+    print_summary(result)

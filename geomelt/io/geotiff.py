@@ -1,0 +1,155 @@
+"""Write geomelt's single-band GeoTIFF outputs.
+
+Each output is written window by window into a staging file, then finished
+(internal overviews, band description, unit, provenance tags) and moved into
+place with an atomic rename, so a final name never holds a partial file.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+from collections.abc import Mapping
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import rasterio
+from rasterio.enums import Resampling
+from rasterio.windows import Window
+
+from geomelt.io.rasters import RasterGrid
+
+__all__ = ["GEOTIFF_PROFILE", "GeoTiffWriter", "overview_factors"]
+
+GEOTIFF_PROFILE: dict[str, Any] = {
+    "driver": "GTiff",
+    "count": 1,
+    "tiled": True,
+    "compress": "zstd",
+    "zstd_level": 1,
+    "BIGTIFF": "IF_SAFER",
+}
+"""Creation options shared by every output (tiled, fast lossless codec)."""
+
+_PREDICTOR = {"f": 3, "i": 2, "u": 2}
+
+
+def overview_factors(width: int, height: int, min_size: int = 256) -> list[int]:
+    """Overview decimation factors (2, 4, 8, ...) until the image is below ``min_size``."""
+    factors = []
+    f = 2
+    while max(width, height) / f >= min_size / 2 and f <= 4096:
+        factors.append(f)
+        f *= 2
+    return factors
+
+
+def _tag_value(value: Any) -> str:
+    if isinstance(value, str):
+        return value
+    return json.dumps(value, allow_nan=False, default=str, sort_keys=True)
+
+
+class GeoTiffWriter:
+    """Write one single-band output GeoTIFF window by window.
+
+    Parameters
+    ----------
+    final_path : path-like
+        Where the finished file goes.
+    staging_dir : path-like
+        Folder for the file while it is written (same filesystem as
+        ``final_path`` so the final move is an atomic rename).
+    grid : RasterGrid
+        Output grid.
+    dtype : str
+        ``"float32"`` (NaN nodata) or an integer type with ``nodata``.
+    nodata : float
+        Nodata value.
+    description, unit : str
+        Band description (the quantity's name) and unit, as GDAL shows them.
+    band_tags, dataset_tags : mapping
+        Free-form metadata; non-string values are stored as JSON.
+    block_size : int
+        Tile size in cells (multiple of 16).
+    categorical : bool
+        Use nearest-neighbour instead of averaging for overviews.
+    """
+
+    def __init__(
+        self,
+        final_path,
+        staging_dir,
+        grid: RasterGrid,
+        *,
+        dtype: str = "float32",
+        nodata: float = float("nan"),
+        description: str = "",
+        unit: str = "",
+        band_tags: Mapping[str, Any] | None = None,
+        dataset_tags: Mapping[str, Any] | None = None,
+        block_size: int = 512,
+        categorical: bool = False,
+        colormap: Mapping[int, tuple[int, int, int, int]] | None = None,
+    ):
+        self.final_path = Path(final_path)
+        self.staging_path = Path(staging_dir) / self.final_path.name
+        self.grid = grid
+        self.dtype = np.dtype(dtype)
+        self.nodata = nodata
+        self.categorical = categorical
+        block = max(16, min(block_size, 1024) // 16 * 16)
+        profile = dict(
+            GEOTIFF_PROFILE,
+            width=grid.width,
+            height=grid.height,
+            crs=grid.crs,
+            transform=grid.transform,
+            dtype=self.dtype.name,
+            nodata=nodata,
+            predictor=_PREDICTOR[self.dtype.kind],
+            blockxsize=block,
+            blockysize=block,
+        )
+        if grid.width < block or grid.height < block:
+            profile["tiled"] = False
+            profile.pop("blockxsize")
+            profile.pop("blockysize")
+        self.staging_path.parent.mkdir(parents=True, exist_ok=True)
+        self._ds = rasterio.open(self.staging_path, "w", **profile)
+        self._ds.set_band_description(1, description)
+        if unit:
+            self._ds.set_band_unit(1, unit)
+        if band_tags:
+            self._ds.update_tags(1, **{k: _tag_value(v) for k, v in band_tags.items()})
+        if dataset_tags:
+            self._ds.update_tags(**{k: _tag_value(v) for k, v in dataset_tags.items()})
+        if colormap:
+            self._ds.write_colormap(1, dict(colormap))
+
+    def write(self, array: np.ndarray, window: Window) -> None:
+        """Write one window; NaN becomes the nodata value for integer outputs."""
+        arr = np.asarray(array)
+        if self.dtype.kind != "f":
+            arr = np.where(np.isnan(arr), self.nodata, arr) if arr.dtype.kind == "f" else arr
+        self._ds.write(arr.astype(self.dtype, copy=False), 1, window=window)
+
+    def finish(self) -> Path:
+        """Close the file, add overviews and statistics, and move it into place."""
+        self._ds.close()
+        factors = overview_factors(self.grid.width, self.grid.height)
+        with rasterio.open(self.staging_path, "r+") as ds:
+            if factors:
+                method = Resampling.nearest if self.categorical else Resampling.average
+                ds.build_overviews(factors, method)
+                ds.update_tags(ns="rio_overview", resampling=method.name)
+        os.replace(self.staging_path, self.final_path)
+        return self.final_path
+
+    def abort(self) -> None:
+        """Close and delete the staging file."""
+        try:
+            self._ds.close()
+        finally:
+            self.staging_path.unlink(missing_ok=True)

@@ -1,0 +1,76 @@
+"""Catalogue of geomelt's input layers and the output layer record.
+
+Input names carry their unit (design.md section 2). Every algorithm refers to
+inputs by these names, the configuration's ``[inputs]`` table uses them, and
+the CLI's ``--input NAME=PATH`` takes them.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+__all__ = ["INPUT_LAYERS", "InputLayer", "OutputLayer"]
+
+
+@dataclass(frozen=True)
+class InputLayer:
+    """An input layer: name, kind, unit and the values expected in it.
+
+    ``plausible_range`` is the range of values that real data of this kind
+    takes; values outside it usually mean wrong units (metres instead of km,
+    W m-2 instead of mW m-2) and are reported.
+    """
+
+    name: str
+    kind: str  # "raster", "lines" or "points"
+    unit: str
+    description: str
+    required: bool
+    plausible_range: tuple[float, float] | None = None
+    resampling: str = "bilinear"
+
+
+INPUT_LAYERS: dict[str, InputLayer] = {
+    layer.name: layer
+    for layer in (
+        InputLayer(
+            "crustal_thickness_km", "raster", "km",
+            "Crustal thickness (depth of the Moho below the surface), positive", True,
+            (3.0, 90.0),
+        ),
+        InputLayer(
+            "heat_flow_mw_m2", "raster", "mW m-2", "Surface heat flow", True, (10.0, 1000.0)
+        ),
+        InputLayer(
+            "slab_depth_km", "raster", "km",
+            "Depth of the top of a subducting slab below sea level, positive down; nodata "
+            "where there is no slab", False, (0.0, 700.0),
+        ),
+        InputLayer(
+            "plate_boundaries", "lines", "",
+            "Plate-boundary lines with boundary_type (ridge, rift, subduction, collision, "
+            "transform), optional rate_mm_yr and upper_plate_side (left/right)", True,
+        ),
+        InputLayer(
+            "hotspots", "points", "",
+            "Hotspot centres with optional excess_temperature_k and radius_km", False,
+        ),
+    )
+}
+
+
+@dataclass(frozen=True)
+class OutputLayer:
+    """An output raster an algorithm produces: one GeoTIFF ``<name>.tif``.
+
+    ``name`` carries the unit (``lab_depth_km``); ``unit`` is the unit text
+    GDAL shows; ``long_name`` is a readable title.
+    """
+
+    name: str
+    unit: str
+    long_name: str
+    description: str
+    dtype: str = "float32"
+    nodata: float = float("nan")
+    categorical: bool = False

@@ -1,0 +1,487 @@
+"""Plan and execute a geomelt run window by window.
+
+:func:`plan_run` resolves algorithms, parameters, inputs and the reference
+grid without writing anything. :func:`execute_run` reads every input window
+on the reference grid, runs the algorithm chain on the arrays, and writes each
+output window. Outputs are staged in a hidden folder inside the output folder
+and moved into place only when complete.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import difflib
+import hashlib
+import json
+import logging
+import os
+import shutil
+import time
+import warnings
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import rasterio
+from rasterio.enums import Resampling
+
+import geomelt
+from geomelt.algorithms import Algorithm, algorithm_chain
+from geomelt.errors import (
+    GeomeltIOError,
+    MissingLayerError,
+    OutputExistsError,
+    ParameterError,
+)
+from geomelt.io.config import RunConfig
+from geomelt.io.geopackage import write_run_metadata
+from geomelt.io.geotiff import GeoTiffWriter
+from geomelt.io.rasters import AlignedRaster, RasterGrid, read_grid
+from geomelt.io.vectors import read_hotspots, read_plate_boundaries
+from geomelt.layers import INPUT_LAYERS, OutputLayer
+from geomelt.parameters import ParameterSet
+
+__all__ = ["OutputStats", "RunPlan", "RunResult", "execute_run", "plan_run"]
+
+log = logging.getLogger(__name__)
+
+STAGING_DIR = ".geomelt-partial"
+MANIFEST = ".geomelt-manifest.json"
+RESULTS_GPKG = "results.gpkg"
+
+
+@dataclass
+class OutputStats:
+    """Running statistics of one output layer."""
+
+    name: str
+    unit: str
+    minimum: float = np.inf
+    maximum: float = -np.inf
+    total: float = 0.0
+    valid_cells: int = 0
+    nodata_cells: int = 0
+
+    def update(self, arr: np.ndarray, nodata: float) -> None:
+        a = np.asarray(arr, dtype=np.float64)
+        valid = np.isfinite(a) if np.isnan(nodata) else (a != nodata) & np.isfinite(a)
+        n = int(valid.sum())
+        self.valid_cells += n
+        self.nodata_cells += int(a.size - n)
+        if n:
+            v = a[valid]
+            self.minimum = min(self.minimum, float(v.min()))
+            self.maximum = max(self.maximum, float(v.max()))
+            self.total += float(v.sum())
+
+    @property
+    def mean(self) -> float:
+        return self.total / self.valid_cells if self.valid_cells else float("nan")
+
+    def as_dict(self) -> dict[str, Any]:
+        has = self.valid_cells > 0
+        return {
+            "unit": self.unit,
+            "min": self.minimum if has else None,
+            "max": self.maximum if has else None,
+            "mean": self.mean if has else None,
+            "valid_cells": self.valid_cells,
+            "nodata_cells": self.nodata_cells,
+        }
+
+
+@dataclass
+class RunPlan:
+    """Everything a run will do, resolved and checked, before anything is written."""
+
+    config: RunConfig
+    algorithms: list[Algorithm]
+    parameters: dict[str, ParameterSet]
+    raster_inputs: dict[str, Path]
+    vector_inputs: dict[str, Path]
+    grid: RasterGrid
+    outputs: list[tuple[Algorithm, OutputLayer]]
+    block_size: int
+    notes: list[str] = field(default_factory=list)
+
+    def as_dict(self) -> dict[str, Any]:
+        """JSON-ready summary of the plan."""
+        return {
+            "grid": {
+                "crs": self.grid.crs.to_string(),
+                "width": self.grid.width,
+                "height": self.grid.height,
+                "transform": list(self.grid.transform)[:6],
+                "reference_layer": self.config.run["reference_grid"],
+            },
+            "algorithms": [a.id for a in self.algorithms],
+            "inputs": {k: str(v) for k, v in {**self.raster_inputs, **self.vector_inputs}.items()},
+            "outputs": [f"{o.name}.tif" for _, o in self.outputs] + [RESULTS_GPKG],
+            "block_size": self.block_size,
+            "notes": self.notes,
+        }
+
+
+@dataclass
+class RunResult:
+    """What a finished run wrote and measured."""
+
+    out_dir: Path
+    files: list[Path]
+    stats: dict[str, OutputStats]
+    warnings: list[str]
+    grid: RasterGrid
+    elapsed_s: float
+
+
+def _resolve_parameters(
+    config: RunConfig, algorithms: list[Algorithm]
+) -> dict[str, ParameterSet]:
+    known: dict[str, str] = {}
+    for alg in algorithms:
+        for f in dataclasses.fields(alg.parameters):
+            known.setdefault(f.name, alg.id)
+    unknown = sorted(set(config.parameters) - set(known))
+    if unknown:
+        hints = []
+        for name in unknown:
+            close = difflib.get_close_matches(name, list(known), n=1)
+            hints.append(f"{name!r}" + (f" (did you mean {close[0]!r}?)" if close else ""))
+        msg = (
+            f"unknown parameter(s) {', '.join(hints)}. Run 'geomelt describe ALGORITHM' to list "
+            "each algorithm's parameters with units and valid ranges."
+        )
+        raise ParameterError(msg)
+    return {alg.id: alg.parameters.from_mapping(config.parameters) for alg in algorithms}
+
+
+def plan_run(config: RunConfig, algorithm_ids: list[str] | None = None) -> RunPlan:
+    """Resolve and check a run without writing anything.
+
+    Raises
+    ------
+    ParameterError, MissingLayerError, InputLayerError, LayerMismatchError
+        With a message naming the parameter or layer and the fix.
+    """
+    algorithms = algorithm_chain(algorithm_ids)
+    params = _resolve_parameters(config, algorithms)
+
+    needed: set[str] = set()
+    optional: set[str] = set()
+    for alg in algorithms:
+        needed.update(n for n in alg.inputs if n in INPUT_LAYERS)
+        optional.update(n for n in alg.optional_inputs if n in INPUT_LAYERS)
+    ref_name = config.run["reference_grid"]
+    needed.add(ref_name)
+    for name in sorted(needed):
+        if name not in config.inputs:
+            users = [a.id for a in algorithms if name in a.inputs] or ["the reference grid"]
+            msg = (
+                f"input layer '{name}' ({INPUT_LAYERS[name].description}, "
+                f"{INPUT_LAYERS[name].unit or 'vector'}) is required by {', '.join(users)} but "
+                f"was not given. Add it to the [inputs] table or pass --input {name}=PATH."
+            )
+            raise MissingLayerError(msg)
+
+    grid = read_grid(config.inputs[ref_name], ref_name)
+    notes = [f"reference grid from '{ref_name}': {grid.describe()}"]
+    raster_inputs: dict[str, Path] = {}
+    vector_inputs: dict[str, Path] = {}
+    for name, path in config.inputs.items():
+        layer = INPUT_LAYERS[name]
+        if layer.kind == "raster":
+            if name in needed or name in optional:
+                raster_inputs[name] = path
+        else:
+            vector_inputs[name] = path
+    for name, path in sorted(raster_inputs.items()):
+        if name == ref_name:
+            continue
+        src = read_grid(path, name)
+        if not src.same_as(grid):
+            notes.append(
+                f"'{name}' ({src.describe()}) will be reprojected onto the reference grid "
+                f"with {INPUT_LAYERS[name].resampling} resampling"
+            )
+    for name, path in sorted(vector_inputs.items()):
+        if name == "plate_boundaries":
+            gdf = read_plate_boundaries(path)
+        else:
+            gdf = read_hotspots(path)
+        notes.append(f"'{name}': {len(gdf)} feature(s) read and checked")
+
+    outputs: list[tuple[Algorithm, OutputLayer]] = []
+    seen: dict[str, str] = {}
+    for alg in algorithms:
+        for out in alg.output_layers(params[alg.id]):
+            if out.name in seen:
+                msg = f"output {out.name!r} is produced by both {seen[out.name]} and {alg.id}"
+                raise ParameterError(msg)
+            seen[out.name] = alg.id
+            outputs.append((alg, out))
+    input_paths = {p.resolve() for p in config.inputs.values()}
+    return RunPlan(
+        config=config,
+        algorithms=algorithms,
+        parameters=params,
+        raster_inputs=raster_inputs,
+        vector_inputs=vector_inputs,
+        grid=grid,
+        outputs=outputs,
+        block_size=int(config.run["block_size"]),
+        notes=notes + [f"{len(input_paths)} input file(s); {len(outputs)} raster output(s)"],
+    )
+
+
+def _sha256(path: Path) -> str:
+    h = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for chunk in iter(lambda: fh.read(1 << 20), b""):
+            h.update(chunk)
+    return h.hexdigest()
+
+
+def _prepare_out_dir(out_dir: Path, overwrite: bool, plan: RunPlan) -> Path:
+    out_dir = out_dir.expanduser().resolve()
+    if out_dir.exists() and not out_dir.is_dir():
+        msg = f"output location {str(out_dir)!r} exists and is not a folder; choose a folder."
+        raise OutputExistsError(msg)
+    finals = {out_dir / f"{o.name}.tif" for _, o in plan.outputs} | {out_dir / RESULTS_GPKG}
+    for name, path in plan.config.inputs.items():
+        if path.resolve() in finals:
+            msg = (
+                f"output folder {str(out_dir)!r} would overwrite the input layer '{name}' "
+                f"({path.name}); choose another output folder."
+            )
+            raise OutputExistsError(msg)
+    if out_dir.exists():
+        existing = [p for p in out_dir.iterdir() if p.name != STAGING_DIR]
+        if existing and not overwrite:
+            msg = (
+                f"output folder {str(out_dir)!r} already exists and is not empty. Choose a new "
+                "folder or pass --overwrite to replace geomelt's outputs in it."
+            )
+            raise OutputExistsError(msg)
+    try:
+        out_dir.mkdir(parents=True, exist_ok=True)
+        staging = out_dir / STAGING_DIR
+        if staging.exists():
+            shutil.rmtree(staging)
+        staging.mkdir()
+    except OSError as exc:
+        msg = f"cannot create output folder {str(out_dir)!r}: {exc.strerror or exc}."
+        raise GeomeltIOError(msg) from None
+    return staging
+
+
+def _check_plausible(name: str, arr: np.ndarray, counts: dict[str, int]) -> None:
+    lo_hi = INPUT_LAYERS[name].plausible_range
+    if lo_hi is None:
+        return
+    finite = np.isfinite(arr)
+    bad = finite & ((arr < lo_hi[0]) | (arr > lo_hi[1]))
+    counts[name] = counts.get(name, 0) + int(bad.sum())
+
+
+def execute_run(
+    plan: RunPlan,
+    out_dir,
+    *,
+    overwrite: bool = False,
+    progress: bool = False,
+    on_window: Callable[[int, int], None] | None = None,
+) -> RunResult:
+    """Run the plan and write every output into ``out_dir``.
+
+    Parameters
+    ----------
+    plan : RunPlan
+        From :func:`plan_run`.
+    out_dir : path-like
+        Output folder; refused when it exists and is not empty, unless
+        ``overwrite``.
+    overwrite : bool
+        Replace geomelt's outputs in an existing folder.
+    progress : bool
+        Show a progress bar on stderr.
+    on_window : callable, optional
+        Called as ``on_window(done, total)`` after each window.
+    """
+    t0 = time.perf_counter()
+    out_dir = Path(out_dir).expanduser().resolve()
+    staging = _prepare_out_dir(out_dir, overwrite, plan)
+    grid = plan.grid
+    input_meta = {
+        name: {"file": path.name, "sha256": _sha256(path)}
+        for name, path in sorted(plan.config.inputs.items())
+    }
+    run_warnings: list[str] = []
+    stats = {o.name: OutputStats(o.name, o.unit) for _, o in plan.outputs}
+    writers: dict[str, GeoTiffWriter] = {}
+    readers: dict[str, AlignedRaster] = {}
+    implausible: dict[str, int] = {}
+    try:
+        with warnings.catch_warnings(record=True) as caught, rasterio.Env(GDAL_CACHEMAX=256):
+            warnings.simplefilter("always")
+            for name, path in sorted(plan.raster_inputs.items()):
+                resampling = Resampling[INPUT_LAYERS[name].resampling]
+                readers[name] = AlignedRaster(path, name, grid, resampling=resampling)
+                if readers[name].overlap_fraction < 0.999:
+                    run_warnings.append(
+                        f"input layer '{name}' covers only "
+                        f"{100 * readers[name].overlap_fraction:.0f} % of the reference grid; "
+                        "cells outside it are nodata"
+                    )
+            for alg, out in plan.outputs:
+                writers[out.name] = GeoTiffWriter(
+                    out_dir / f"{out.name}.tif",
+                    staging,
+                    grid,
+                    dtype=out.dtype,
+                    nodata=out.nodata,
+                    description=out.name,
+                    unit=out.unit,
+                    categorical=out.categorical,
+                    block_size=plan.block_size,
+                    band_tags={
+                        "long_name": out.long_name,
+                        "description": out.description,
+                        "units": out.unit,
+                    },
+                    dataset_tags={
+                        "producer": f"geomelt {geomelt.__version__}",
+                        "algorithm": f"{alg.id} {alg.version}",
+                        "parameters": plan.parameters[alg.id].as_dict(),
+                        "inputs": input_meta,
+                        "references": list(alg.references),
+                        "caution": geomelt.CAUTION,
+                    },
+                )
+            windows = list(grid.windows(plan.block_size))
+            bar = _progress_bar(len(windows), progress)
+            for i, window in enumerate(windows):
+                arrays: dict[str, np.ndarray] = {}
+                for name, reader in readers.items():
+                    arrays[name] = reader.read(window)
+                    _check_plausible(name, arrays[name], implausible)
+                for alg in plan.algorithms:
+                    args = {n: arrays[n] for n in alg.inputs}
+                    args.update({n: arrays[n] for n in alg.optional_inputs if n in arrays})
+                    arrays.update(alg.compute(args, plan.parameters[alg.id]))
+                for _, out in plan.outputs:
+                    writers[out.name].write(arrays[out.name], window)
+                    stats[out.name].update(arrays[out.name], out.nodata)
+                bar.update(1)
+                if on_window is not None:
+                    on_window(i + 1, len(windows))
+            bar.close()
+            for name, reader in readers.items():
+                reader.close()
+            readers.clear()
+            files = [w.finish() for w in writers.values()]
+            writers.clear()
+        seen: set[str] = set()
+        for w in caught:
+            text = str(w.message)
+            if text not in seen:
+                seen.add(text)
+                run_warnings.append(text)
+        for name, n in implausible.items():
+            if n:
+                lo, hi = INPUT_LAYERS[name].plausible_range
+                run_warnings.append(
+                    f"input layer '{name}': {n} cell(s) outside the plausible range "
+                    f"{lo:g}-{hi:g} {INPUT_LAYERS[name].unit}; check its units"
+                )
+        gpkg_stage = staging / RESULTS_GPKG
+        write_run_metadata(gpkg_stage, _metadata_records(plan, input_meta, stats, run_warnings))
+        final_gpkg = out_dir / RESULTS_GPKG
+        os.replace(gpkg_stage, final_gpkg)
+        files.append(final_gpkg)
+        _replace_manifest(out_dir, files)
+    except BaseException:
+        for reader in readers.values():
+            reader.close()
+        for writer in writers.values():
+            writer.abort()
+        raise
+    finally:
+        shutil.rmtree(staging, ignore_errors=True)
+    for text in run_warnings:
+        log.warning(text)
+    return RunResult(
+        out_dir=out_dir,
+        files=files,
+        stats=stats,
+        warnings=run_warnings,
+        grid=grid,
+        elapsed_s=time.perf_counter() - t0,
+    )
+
+
+def _progress_bar(total: int, enabled: bool):
+    from tqdm import tqdm
+
+    return tqdm(total=total, unit="window", desc="geomelt", disable=not enabled, leave=False)
+
+
+def _replace_manifest(out_dir: Path, files: list[Path]) -> None:
+    """Record what this run wrote; remove outputs of an earlier run that this run did not write."""
+    manifest = out_dir / MANIFEST
+    names = sorted(p.name for p in files)
+    if manifest.exists():
+        try:
+            old = json.loads(manifest.read_text())["files"]
+        except (ValueError, KeyError, TypeError):
+            old = []
+        for stale in set(old) - set(names):
+            if "/" not in stale and "\\" not in stale:
+                (out_dir / stale).unlink(missing_ok=True)
+    tmp = out_dir / (MANIFEST + ".tmp")
+    tmp.write_text(json.dumps({"producer": "geomelt", "files": names}, indent=1))
+    os.replace(tmp, manifest)
+
+
+def _metadata_records(plan: RunPlan, input_meta, stats, run_warnings) -> list[tuple[str, str, str]]:
+    import platform
+
+    import numpy
+    import pyogrio
+    import pyproj
+
+    rec: list[tuple[str, str, str]] = [
+        ("run", "producer", f"geomelt {geomelt.__version__}"),
+        ("run", "caution", geomelt.CAUTION),
+        ("run", "finished_utc", time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime())),
+        ("run", "configuration", str(plan.config.source) if plan.config.source else ""),
+        ("run", "algorithms", ", ".join(f"{a.id} {a.version}" for a in plan.algorithms)),
+        ("grid", "crs", plan.grid.crs.to_wkt()),
+        ("grid", "size", f"{plan.grid.width} x {plan.grid.height}"),
+        ("grid", "transform", json.dumps(list(plan.grid.transform)[:6])),
+        ("grid", "reference_layer", plan.config.run["reference_grid"]),
+        ("versions", "python", platform.python_version()),
+        ("versions", "numpy", numpy.__version__),
+        ("versions", "rasterio", rasterio.__version__),
+        ("versions", "gdal (rasterio)", rasterio.__gdal_version__),
+        ("versions", "pyogrio", pyogrio.__version__),
+        ("versions", "pyproj", pyproj.__version__),
+    ]
+    for name, meta in input_meta.items():
+        rec.append(("input", name, json.dumps({"path": str(plan.config.inputs[name]), **meta})))
+    for alg in plan.algorithms:
+        p = plan.parameters[alg.id]
+        consts = type(p).constants()
+        for key, value in p.as_dict().items():
+            unit = consts[key].unit
+            rec.append(
+                ("parameter", f"{alg.id}.{key}", json.dumps({"value": value, "unit": unit}))
+            )
+    for name, st in stats.items():
+        rec.append(("output", f"{name}.tif", json.dumps(st.as_dict())))
+    for note in plan.notes:
+        rec.append(("note", "plan", note))
+    for i, text in enumerate(run_warnings):
+        rec.append(("warning", str(i + 1), text))
+    return rec

@@ -1,0 +1,68 @@
+"""Meta-tests over every registered algorithm's declaration table."""
+
+from __future__ import annotations
+
+import dataclasses
+import json
+import math
+
+import pytest
+
+from geomelt.algorithms import algorithm_chain, registered_algorithms
+from geomelt.layers import INPUT_LAYERS
+
+ALGORITHMS = list(registered_algorithms().values())
+UNIT_SUFFIXES = ("_km", "_c", "_k", "_mw_m2", "_uw_m3", "_w_m_k", "_ma", "_m2_s", "_j_kg_k",
+                 "_kg_m3", "_k_km", "_fraction", "_argument", "_partition", "_geotherm")
+
+
+@pytest.mark.parametrize("alg", ALGORITHMS, ids=lambda a: a.id)
+def test_declaration_is_complete(alg):
+    assert alg.id and alg.title and alg.description and alg.version
+    assert alg.references, "every algorithm cites its published method"
+    for f in dataclasses.fields(alg.parameters):
+        const = f.metadata["constant"]
+        assert const.source, f"{f.name} has no source"
+        assert const.description, f"{f.name} has no description"
+        assert f.name.endswith(UNIT_SUFFIXES) or const.unit in ("", "1"), (
+            f"parameter {f.name} ({const.unit}) does not carry its unit in its name"
+        )
+    for out in alg.output_layers():
+        assert out.unit, f"{out.name} has no unit"
+        assert out.long_name and out.description
+
+
+@pytest.mark.parametrize("alg", ALGORITHMS, ids=lambda a: a.id)
+def test_describe_is_valid_json_with_units(alg):
+    doc = alg.describe()
+    text = json.dumps(doc, allow_nan=False)  # NaN nodata must have become null
+    again = json.loads(text)
+    assert again["id"] == alg.id
+    for name in alg.inputs:
+        assert name in again["inputs"]
+    for f in dataclasses.fields(alg.parameters):
+        schema = again["inputs"][f.name]["schema"]
+        assert "default" in schema
+    for out in alg.output_layers():
+        assert again["outputs"][out.name]["schema"]["x-unit"] == out.unit
+
+
+def test_chain_orders_producers_first():
+    chain = algorithm_chain()
+    produced = set(INPUT_LAYERS)
+    for alg in chain:
+        for name in alg.inputs:
+            assert name in produced, f"{alg.id} runs before the producer of {name}"
+        produced.update(o.name for o in alg.output_layers())
+
+
+def test_parameter_names_mean_the_same_everywhere():
+    seen = {}
+    for alg in ALGORITHMS:
+        for f in dataclasses.fields(alg.parameters):
+            const = f.metadata["constant"]
+            if f.name in seen:
+                assert seen[f.name] is const, f"{f.name} defined differently in two algorithms"
+            seen[f.name] = const
+            if isinstance(const.value, float):
+                assert math.isfinite(const.value)
