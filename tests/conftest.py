@@ -30,8 +30,16 @@ def write_raster(path, array, *, crs=LAEA, transform=None, nodata=np.nan, dtype=
     if transform is None:
         transform = from_origin(-320_000, 240_000, 10_000, 10_000)
     with rasterio.open(
-        path, "w", driver="GTiff", width=array.shape[1], height=array.shape[0], count=1,
-        dtype=dtype, crs=crs, transform=transform, nodata=nodata,
+        path,
+        "w",
+        driver="GTiff",
+        width=array.shape[1],
+        height=array.shape[0],
+        count=1,
+        dtype=dtype,
+        crs=crs,
+        transform=transform,
+        nodata=nodata,
     ) as dst:
         dst.write(array.astype(dtype), 1)
     return Path(path)

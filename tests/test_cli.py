@@ -91,7 +91,8 @@ def test_overwrite_removes_outputs_the_new_run_does_not_write(tiny_region, tmp_p
 
 def test_unknown_parameter_suggests_the_right_name(tiny_region, tmp_path):
     res = CliRunner().invoke(
-        main, ["run", str(tiny_region), "-o", str(tmp_path / "o"), "-p", "mantle_potential_temp=1400"]
+        main,
+        ["run", str(tiny_region), "-o", str(tmp_path / "o"), "-p", "mantle_potential_temp=1400"],
     )
     assert res.exit_code == 2
     assert "mantle_potential_temperature_c" in res.output
@@ -100,7 +101,8 @@ def test_unknown_parameter_suggests_the_right_name(tiny_region, tmp_path):
 
 def test_out_of_range_parameter(tiny_region, tmp_path):
     res = CliRunner().invoke(
-        main, ["run", str(tiny_region), "-o", str(tmp_path / "o"), "-p", "crust_conductivity_w_m_k=40"]
+        main,
+        ["run", str(tiny_region), "-o", str(tmp_path / "o"), "-p", "crust_conductivity_w_m_k=40"],
     )
     assert res.exit_code == 2
     assert "valid range" in res.output

@@ -12,8 +12,23 @@ from geomelt.algorithms import algorithm_chain, registered_algorithms
 from geomelt.layers import INPUT_LAYERS
 
 ALGORITHMS = list(registered_algorithms().values())
-UNIT_SUFFIXES = ("_km", "_c", "_k", "_mw_m2", "_uw_m3", "_w_m_k", "_ma", "_m2_s", "_j_kg_k",
-                 "_kg_m3", "_k_km", "_fraction", "_argument", "_partition", "_geotherm")
+UNIT_SUFFIXES = (
+    "_km",
+    "_c",
+    "_k",
+    "_mw_m2",
+    "_uw_m3",
+    "_w_m_k",
+    "_ma",
+    "_m2_s",
+    "_j_kg_k",
+    "_kg_m3",
+    "_k_km",
+    "_fraction",
+    "_argument",
+    "_partition",
+    "_geotherm",
+)
 
 
 @pytest.mark.parametrize("alg", ALGORITHMS, ids=lambda a: a.id)

@@ -32,36 +32,48 @@ def isotherm_layer_name(temperature_c: float) -> str:
 def _outputs(params: ThermalParameters) -> tuple[OutputLayer, ...]:
     fixed = (
         OutputLayer(
-            "moho_temperature_c", "degC", "Moho temperature",
+            "moho_temperature_c",
+            "degC",
+            "Moho temperature",
             "Temperature at the base of the crust from the steady geotherm (conductive above "
             "the thermal lithosphere base, mantle adiabat below)",
         ),
         OutputLayer(
-            "lab_depth_km", "km", "Thermal lithosphere base depth",
+            "lab_depth_km",
+            "km",
+            "Thermal lithosphere base depth",
             "Depth where the conductive geotherm meets the mantle adiabat (continents) or the "
             "half-space thermal boundary-layer base (oceanic cells); nodata where deeper than "
             "the search limit",
         ),
         OutputLayer(
-            "moho_heat_flow_mw_m2", "mW m-2", "Heat flow at the Moho",
+            "moho_heat_flow_mw_m2",
+            "mW m-2",
+            "Heat flow at the Moho",
             "Conductive heat flow entering the crust from below",
         ),
         OutputLayer(
-            "oceanic_plate_age_ma", "Ma", "Plate age implied by heat flow (oceanic cells)",
+            "oceanic_plate_age_ma",
+            "Ma",
+            "Plate age implied by heat flow (oceanic cells)",
             "Age of oceanic lithosphere whose GDH1 heat flow equals the observed heat flow; "
             "nodata for continental cells",
         ),
     )
     temps = tuple(
         OutputLayer(
-            temperature_layer_name(d), "degC", f"Temperature at {d:g} km depth",
+            temperature_layer_name(d),
+            "degC",
+            f"Temperature at {d:g} km depth",
             f"Steady-state temperature {d:g} km below the surface",
         )
         for d in params.temperature_depths_km
     )
     isos = tuple(
         OutputLayer(
-            isotherm_layer_name(t), "km", f"Depth of the {t:g} degC isotherm",
+            isotherm_layer_name(t),
+            "km",
+            f"Depth of the {t:g} degC isotherm",
             f"Shallowest depth where the geotherm reaches {t:g} degC",
         )
         for t in params.isotherms_c

@@ -22,7 +22,9 @@ def _fmt(value) -> str:
 
 def print_summary(result: RunResult) -> None:
     """Closing summary on stdout: files, value ranges, warnings, caution."""
-    click.echo(f"geomelt {geomelt.__version__}: wrote {len(result.files)} file(s) to {result.out_dir}")
+    click.echo(
+        f"geomelt {geomelt.__version__}: wrote {len(result.files)} file(s) to {result.out_dir}"
+    )
     click.echo(f"grid: {result.grid.describe()}; {result.elapsed_s:.1f} s")
     width = max(len(n) for n in result.stats) + 4
     click.echo(f"{'output':<{width}} {'min':>10} {'mean':>10} {'max':>10}  unit     nodata %")
@@ -47,35 +49,56 @@ def print_summary(result: RunResult) -> None:
 @click.command("run")
 @click.argument("config", type=click.Path(dir_okay=False, path_type=Path))
 @click.option(
-    "-o", "--out", "out_dir", required=True, type=click.Path(file_okay=False, path_type=Path),
+    "-o",
+    "--out",
+    "out_dir",
+    required=True,
+    type=click.Path(file_okay=False, path_type=Path),
     help="Output folder (created; refused if it exists and is not empty, unless --overwrite).",
 )
 @click.option("--overwrite", is_flag=True, help="Replace geomelt outputs in an existing folder.")
 @click.option(
-    "-i", "--input", "inputs", multiple=True, metavar="NAME=PATH",
+    "-i",
+    "--input",
+    "inputs",
+    multiple=True,
+    metavar="NAME=PATH",
     help="Override an input layer, e.g. -i heat_flow_mw_m2=hf.tif (repeatable).",
 )
 @click.option(
-    "-p", "--param", "params", multiple=True, metavar="NAME=VALUE",
+    "-p",
+    "--param",
+    "params",
+    multiple=True,
+    metavar="NAME=VALUE",
     help="Override a parameter, e.g. -p mantle_potential_temperature_c=1400 (repeatable). "
     "Values are TOML: numbers, [lists], text.",
 )
 @click.option(
-    "-a", "--algorithm", "algorithm_ids", multiple=True, metavar="ID",
+    "-a",
+    "--algorithm",
+    "algorithm_ids",
+    multiple=True,
+    metavar="ID",
     help="Run only this algorithm and those it depends on (repeatable; default: all).",
 )
 @click.option("--block-size", type=int, default=None, help="Window size in cells (multiple of 16).")
 @click.option(
-    "--progress/--no-progress", default=None,
+    "--progress/--no-progress",
+    default=None,
     help="Progress bar on stderr (default: only when stderr is a terminal).",
 )
 @click.option(
-    "-n", "--dry-run", is_flag=True,
+    "-n",
+    "--dry-run",
+    is_flag=True,
     help="Check the configuration and inputs, print the plan as JSON, write nothing.",
 )
 @verbosity
 @handle_errors
-def run_cmd(config, out_dir, overwrite, inputs, params, algorithm_ids, block_size, progress, dry_run):
+def run_cmd(
+    config, out_dir, overwrite, inputs, params, algorithm_ids, block_size, progress, dry_run
+):
     """Compute the maps for the region described by CONFIG (a TOML file).
 
     Writes one GeoTIFF per quantity and results.gpkg into the output folder.

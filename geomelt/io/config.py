@@ -75,8 +75,7 @@ class RunConfig:
 def _check_input_name(name: str, where: str) -> None:
     if name not in INPUT_LAYERS:
         msg = (
-            f"{where}: unknown input layer {name!r}. Known input layers: "
-            f"{', '.join(INPUT_LAYERS)}."
+            f"{where}: unknown input layer {name!r}. Known input layers: {', '.join(INPUT_LAYERS)}."
         )
         raise ConfigError(msg)
 
@@ -93,7 +92,9 @@ def _check_run_option(key: str, value: Any, where: str) -> Any:
         msg = f"{where}: [run] {key} must be text, got {value!r}."
         raise ConfigError(msg)
     if key == "block_size" and not (16 <= value <= 8192 and value % 16 == 0):
-        msg = f"{where}: [run] block_size must be a multiple of 16 between 16 and 8192, got {value}."
+        msg = (
+            f"{where}: [run] block_size must be a multiple of 16 between 16 and 8192, got {value}."
+        )
         raise ConfigError(msg)
     if key == "reference_grid":
         _check_input_name(value, f"{where}: [run] reference_grid")

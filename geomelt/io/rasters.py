@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import logging
 import math
+import threading
 import warnings
 from collections.abc import Iterator
 from dataclasses import dataclass
@@ -18,6 +19,7 @@ from pathlib import Path
 import numpy as np
 import rasterio
 from affine import Affine
+from pyproj import Transformer
 from rasterio.crs import CRS
 from rasterio.enums import Resampling
 from rasterio.errors import RasterioIOError
@@ -26,7 +28,7 @@ from rasterio.windows import Window
 
 from geomelt.errors import GeomeltWarning, InputLayerError, LayerMismatchError, MissingLayerError
 
-__all__ = ["AlignedRaster", "RasterGrid", "open_raster_checked", "read_grid"]
+__all__ = ["AlignedRaster", "RasterGrid", "crs_label", "open_raster_checked", "read_grid"]
 
 log = logging.getLogger(__name__)
 
@@ -72,9 +74,7 @@ class RasterGrid:
         """Short human-readable description used in logs and metadata."""
         dx, dy = self.cell_size
         unit = "deg" if self.is_geographic else (self.crs.linear_units if self.crs else "?")
-        crs = self.crs.to_string() if self.crs else "no CRS"
-        if len(crs) > 60:
-            crs = crs[:57] + "..."
+        crs = crs_label(self.crs)
         return f"{self.width} x {self.height} cells of {dx:g} x {dy:g} {unit}, {crs}"
 
     def windows(self, block_size: int) -> Iterator[Window]:
@@ -84,6 +84,25 @@ class RasterGrid:
                 yield Window(
                     col, row, min(block_size, self.width - col), min(block_size, self.height - row)
                 )
+
+    def cell_centres(self, window: Window | None = None) -> tuple[np.ndarray, np.ndarray]:
+        """Cell-centre coordinates (x, y) in the grid CRS for a window (2-D arrays)."""
+        if window is None:
+            window = Window(0, 0, self.width, self.height)
+        cols = np.arange(window.col_off, window.col_off + window.width) + 0.5
+        rows = np.arange(window.row_off, window.row_off + window.height) + 0.5
+        t = self.transform
+        x = t.c + t.a * cols[None, :] + t.b * rows[:, None]
+        y = t.f + t.d * cols[None, :] + t.e * rows[:, None]
+        return x, y
+
+    def lonlat(self, window: Window | None = None) -> tuple[np.ndarray, np.ndarray]:
+        """Cell-centre longitude and latitude (degrees, WGS84) for a window."""
+        x, y = self.cell_centres(window)
+        if self.crs.to_epsg() == 4326:
+            return x, y
+        lon, lat = _to_wgs84(self.crs.to_wkt()).transform(x, y)
+        return np.asarray(lon), np.asarray(lat)
 
     def same_as(self, other: RasterGrid, rtol: float = 1e-9) -> bool:
         """True when both grids have the same CRS, size and (nearly) the same transform."""
@@ -96,6 +115,32 @@ class RasterGrid:
             math.isclose(a, b, rel_tol=rtol, abs_tol=rtol * scale)
             for a, b in zip(self.transform[:6], other.transform[:6], strict=True)
         )
+
+
+def crs_label(crs: CRS | None) -> str:
+    """Short name of a CRS: ``EPSG:4326`` when it has a code, else its WKT name."""
+    if crs is None:
+        return "no CRS"
+    epsg = crs.to_epsg()
+    if epsg is not None:
+        return f"EPSG:{epsg}"
+    from pyproj import CRS as ProjCRS
+
+    return ProjCRS.from_wkt(crs.to_wkt()).name
+
+
+_TRANSFORMERS = threading.local()
+
+
+def _to_wgs84(crs_wkt: str):
+    """A per-thread cached pyproj transformer from ``crs_wkt`` to lon/lat (pyproj
+    transformers must not be shared between threads)."""
+    cache = getattr(_TRANSFORMERS, "cache", None)
+    if cache is None:
+        cache = _TRANSFORMERS.cache = {}
+    if crs_wkt not in cache:
+        cache[crs_wkt] = Transformer.from_crs(crs_wkt, "EPSG:4326", always_xy=True)
+    return cache[crs_wkt]
 
 
 def open_raster_checked(path: Path, layer: str):

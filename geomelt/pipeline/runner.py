@@ -136,9 +136,7 @@ class RunResult:
     elapsed_s: float
 
 
-def _resolve_parameters(
-    config: RunConfig, algorithms: list[Algorithm]
-) -> dict[str, ParameterSet]:
+def _resolve_parameters(config: RunConfig, algorithms: list[Algorithm]) -> dict[str, ParameterSet]:
     known: dict[str, str] = {}
     for alg in algorithms:
         for f in dataclasses.fields(alg.parameters):
@@ -377,7 +375,7 @@ def execute_run(
                 if on_window is not None:
                     on_window(i + 1, len(windows))
             bar.close()
-            for name, reader in readers.items():
+            for reader in readers.values():
                 reader.close()
             readers.clear()
             files = [w.finish() for w in writers.values()]
@@ -475,9 +473,7 @@ def _metadata_records(plan: RunPlan, input_meta, stats, run_warnings) -> list[tu
         consts = type(p).constants()
         for key, value in p.as_dict().items():
             unit = consts[key].unit
-            rec.append(
-                ("parameter", f"{alg.id}.{key}", json.dumps({"value": value, "unit": unit}))
-            )
+            rec.append(("parameter", f"{alg.id}.{key}", json.dumps({"value": value, "unit": unit})))
     for name, st in stats.items():
         rec.append(("output", f"{name}.tif", json.dumps(st.as_dict())))
     for note in plan.notes:

@@ -22,7 +22,9 @@ from tests.conftest import LAEA, write_raster
 @pytest.fixture
 def reference_grid(tmp_path):
     arr = np.zeros((40, 56), dtype="float32")
-    path = write_raster(tmp_path / "ref.tif", arr, transform=from_origin(-280_000, 200_000, 10_000, 10_000))
+    path = write_raster(
+        tmp_path / "ref.tif", arr, transform=from_origin(-280_000, 200_000, 10_000, 10_000)
+    )
     return read_grid(path, "crustal_thickness_km")
 
 
@@ -43,8 +45,13 @@ def test_window_reads_match_gdal_reproject(reference_grid, geographic_raster):
     expected = np.full(grid.shape, np.nan, dtype="float32")
     with rasterio.open(geographic_raster) as src:
         reproject(
-            rasterio.band(src, 1), expected, dst_transform=grid.transform, dst_crs=grid.crs,
-            src_nodata=src.nodata, dst_nodata=np.nan, resampling=Resampling.bilinear,
+            rasterio.band(src, 1),
+            expected,
+            dst_transform=grid.transform,
+            dst_crs=grid.crs,
+            src_nodata=src.nodata,
+            dst_nodata=np.nan,
+            resampling=Resampling.bilinear,
         )
     got = np.full(grid.shape, np.nan)
     with AlignedRaster(geographic_raster, "slab_depth_km", grid) as ar:
@@ -95,7 +102,9 @@ def test_raster_without_crs(tmp_path, reference_grid):
 
 def test_no_overlap(tmp_path, reference_grid):
     far = write_raster(
-        tmp_path / "far.tif", np.ones((5, 5), "float32"), crs="EPSG:4326",
+        tmp_path / "far.tif",
+        np.ones((5, 5), "float32"),
+        crs="EPSG:4326",
         transform=from_origin(120.0, -40.0, 0.1, 0.1),
     )
     with pytest.raises(LayerMismatchError, match="does not overlap"):
@@ -103,6 +112,11 @@ def test_no_overlap(tmp_path, reference_grid):
 
 
 def test_grid_description_and_bounds():
-    grid = RasterGrid(crs=rasterio.crs.CRS.from_string(LAEA), transform=from_origin(0, 100, 10, 10), width=3, height=2)
+    grid = RasterGrid(
+        crs=rasterio.crs.CRS.from_string(LAEA),
+        transform=from_origin(0, 100, 10, 10),
+        width=3,
+        height=2,
+    )
     assert grid.bounds == (0, 80, 30, 100)
     assert "3 x 2 cells" in grid.describe()
