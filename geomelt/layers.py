@@ -34,26 +34,39 @@ INPUT_LAYERS: dict[str, InputLayer] = {
     layer.name: layer
     for layer in (
         InputLayer(
-            "crustal_thickness_km", "raster", "km",
-            "Crustal thickness (depth of the Moho below the surface), positive", True,
+            "crustal_thickness_km",
+            "raster",
+            "km",
+            "Crustal thickness (depth of the Moho below the surface), positive",
+            True,
             (3.0, 90.0),
         ),
         InputLayer(
             "heat_flow_mw_m2", "raster", "mW m-2", "Surface heat flow", True, (10.0, 1000.0)
         ),
         InputLayer(
-            "slab_depth_km", "raster", "km",
+            "slab_depth_km",
+            "raster",
+            "km",
             "Depth of the top of a subducting slab below sea level, positive down; nodata "
-            "where there is no slab", False, (0.0, 700.0),
+            "where there is no slab",
+            False,
+            (0.0, 700.0),
         ),
         InputLayer(
-            "plate_boundaries", "lines", "",
+            "plate_boundaries",
+            "lines",
+            "",
             "Plate-boundary lines with boundary_type (ridge, rift, subduction, collision, "
-            "transform), optional rate_mm_yr and upper_plate_side (left/right)", True,
+            "transform), optional rate_mm_yr and upper_plate_side (left/right)",
+            True,
         ),
         InputLayer(
-            "hotspots", "points", "",
-            "Hotspot centres with optional excess_temperature_k and radius_km", False,
+            "hotspots",
+            "points",
+            "",
+            "Hotspot centres with optional excess_temperature_k and radius_km",
+            False,
         ),
     )
 }
