@@ -66,144 +66,240 @@ def _c(*args, **kwargs) -> Constant:
 # Hasterok & Chapman 2011; Pollack & Chapman 1977)
 # --------------------------------------------------------------------------------------
 SURFACE_TEMPERATURE_C = _c(
-    "surface_temperature_c", 10.0, "degC",
+    "surface_temperature_c",
+    10.0,
+    "degC",
     "Mean annual ground-surface temperature (top boundary of the geotherm)",
-    "common practice (mid-latitude mean annual ground temperature)", -40.0, 40.0,
+    "common practice (mid-latitude mean annual ground temperature)",
+    -40.0,
+    40.0,
 )
 HEAT_FLOW_PARTITION = _c(
-    "heat_flow_partition", "hasterok_chapman", "",
+    "heat_flow_partition",
+    "hasterok_chapman",
+    "",
     "How surface heat flow is split into crustal heat production and mantle heat flow",
     "Hasterok & Chapman 2011, EPSL 307:59 (default); Pollack & Chapman 1977, "
     "Tectonophysics 38:279 with Turcotte & Schubert 2002 eq. 4-31 (option)",
     choices=("hasterok_chapman", "pollack_chapman"),
 )
 UPPER_CRUST_THICKNESS_KM = _c(
-    "upper_crust_thickness_km", 16.0, "km",
+    "upper_crust_thickness_km",
+    16.0,
+    "km",
     "Thickness of the heat-producing upper crust in the Hasterok & Chapman partition",
-    "Hasterok & Chapman 2011 as set in an open implementation (secondary source)", 1.0, 40.0,
+    "Hasterok & Chapman 2011 as set in an open implementation (secondary source)",
+    1.0,
+    40.0,
 )
 UPPER_CRUST_HEAT_FRACTION = _c(
-    "upper_crust_heat_fraction", 0.26, "1",
+    "upper_crust_heat_fraction",
+    0.26,
+    "1",
     "Fraction of surface heat flow produced in the upper crust (Hasterok & Chapman partition)",
-    "Hasterok & Chapman 2011, EPSL 307:59 (abstract)", 0.0, 0.9,
+    "Hasterok & Chapman 2011, EPSL 307:59 (abstract)",
+    0.0,
+    0.9,
 )
 LOWER_CRUST_HEAT_PRODUCTION_UW_M3 = _c(
-    "lower_crust_heat_production_uw_m3", 0.4, "uW m-3",
+    "lower_crust_heat_production_uw_m3",
+    0.4,
+    "uW m-3",
     "Volumetric heat production of the lower crust",
-    "Hasterok & Chapman 2011, EPSL 307:59", 0.0, 3.0,
+    "Hasterok & Chapman 2011, EPSL 307:59",
+    0.0,
+    3.0,
 )
 MANTLE_HEAT_PRODUCTION_UW_M3 = _c(
-    "mantle_heat_production_uw_m3", 0.02, "uW m-3",
+    "mantle_heat_production_uw_m3",
+    0.02,
+    "uW m-3",
     "Volumetric heat production of the lithospheric mantle",
-    "Hasterok & Chapman 2011, EPSL 307:59", 0.0, 0.2,
+    "Hasterok & Chapman 2011, EPSL 307:59",
+    0.0,
+    0.2,
 )
 REDUCED_HEAT_FLOW_FRACTION = _c(
-    "reduced_heat_flow_fraction", 0.6, "1",
+    "reduced_heat_flow_fraction",
+    0.6,
+    "1",
     "Mantle (reduced) heat flow as a fraction of surface heat flow (Pollack & Chapman partition)",
     "Pollack & Chapman 1977, Tectonophysics 38:279 (from memory; linear relation checked)",
-    0.1, 1.0,
+    0.1,
+    1.0,
 )
 HEAT_PRODUCTION_DEPTH_SCALE_KM = _c(
-    "heat_production_depth_scale_km", 10.0, "km",
+    "heat_production_depth_scale_km",
+    10.0,
+    "km",
     "e-folding depth h_r of exponentially decreasing crustal heat production",
-    "Lachenbruch 1970, JGR 75:3291 (from memory)", 1.0, 30.0,
+    "Lachenbruch 1970, JGR 75:3291 (from memory)",
+    1.0,
+    30.0,
 )
 CRUST_CONDUCTIVITY_W_M_K = _c(
-    "crust_conductivity_w_m_k", 2.5, "W m-1 K-1",
+    "crust_conductivity_w_m_k",
+    2.5,
+    "W m-1 K-1",
     "Thermal conductivity of the crust (constant)",
-    "Turcotte & Schubert 2002, ch. 4 (from memory)", 1.0, 5.0,
+    "Turcotte & Schubert 2002, ch. 4 (from memory)",
+    1.0,
+    5.0,
 )
 MANTLE_CONDUCTIVITY_W_M_K = _c(
-    "mantle_conductivity_w_m_k", 3.0, "W m-1 K-1",
+    "mantle_conductivity_w_m_k",
+    3.0,
+    "W m-1 K-1",
     "Thermal conductivity of the lithospheric mantle (constant)",
-    "Turcotte & Schubert 2002, ch. 4 (from memory)", 1.0, 6.0,
+    "Turcotte & Schubert 2002, ch. 4 (from memory)",
+    1.0,
+    6.0,
 )
 MANTLE_POTENTIAL_TEMPERATURE_C = _c(
-    "mantle_potential_temperature_c", 1350.0, "degC",
+    "mantle_potential_temperature_c",
+    1350.0,
+    "degC",
     "Potential temperature of the convecting upper mantle (ambient, MORB source)",
-    "Herzberg, Condie & Korenaga 2010, EPSL 292:79", 1200.0, 1700.0,
+    "Herzberg, Condie & Korenaga 2010, EPSL 292:79",
+    1200.0,
+    1700.0,
 )
 ADIABAT_GRADIENT_K_KM = _c(
-    "adiabat_gradient_k_km", 0.45, "K km-1",
+    "adiabat_gradient_k_km",
+    0.45,
+    "K km-1",
     "Temperature gradient of the sub-lithospheric mantle adiabat (linear approximation)",
-    "approximates the upper-mantle adiabat of Katsura 2022, JGR (secondary source)", 0.2, 0.8,
+    "approximates the upper-mantle adiabat of Katsura 2022, JGR (secondary source)",
+    0.2,
+    0.8,
 )
 LAB_MAX_DEPTH_KM = _c(
-    "lab_max_depth_km", 350.0, "km",
+    "lab_max_depth_km",
+    350.0,
+    "km",
     "Deepest thermal lithosphere base searched; deeper crossings are reported as nodata",
-    "common practice (thickest cratonic roots ~250-300 km)", 100.0, 660.0,
+    "common practice (thickest cratonic roots ~250-300 km)",
+    100.0,
+    660.0,
 )
 
 # --------------------------------------------------------------------------------------
 # Oceanic lithosphere (Turcotte & Schubert 2002 section 4-16; Stein & Stein 1992)
 # --------------------------------------------------------------------------------------
 GDH1_PLATE_THICKNESS_KM = _c(
-    "gdh1_plate_thickness_km", 95.0, "km",
+    "gdh1_plate_thickness_km",
+    95.0,
+    "km",
     "Plate thickness of the GDH1 cooling model (bounds the oceanic thermal lithosphere)",
-    "Stein & Stein 1992, Nature 359:123", 50.0, 150.0,
+    "Stein & Stein 1992, Nature 359:123",
+    50.0,
+    150.0,
 )
 GDH1_BASAL_TEMPERATURE_C = _c(
-    "gdh1_basal_temperature_c", 1450.0, "degC",
+    "gdh1_basal_temperature_c",
+    1450.0,
+    "degC",
     "Basal temperature of the GDH1 plate model",
-    "Stein & Stein 1992, Nature 359:123", 1200.0, 1600.0,
+    "Stein & Stein 1992, Nature 359:123",
+    1200.0,
+    1600.0,
 )
 GDH1_CONDUCTIVITY_W_M_K = _c(
-    "gdh1_conductivity_w_m_k", 3.138, "W m-1 K-1",
+    "gdh1_conductivity_w_m_k",
+    3.138,
+    "W m-1 K-1",
     "Thermal conductivity of the GDH1 plate model",
-    "Stein & Stein 1992 (from memory; reproduces the 510 mW m-2 Ma^1/2 coefficient)", 1.0, 6.0,
+    "Stein & Stein 1992 (from memory; reproduces the 510 mW m-2 Ma^1/2 coefficient)",
+    1.0,
+    6.0,
 )
 GDH1_HEAT_CAPACITY_J_KG_K = _c(
-    "gdh1_heat_capacity_j_kg_k", 1171.0, "J kg-1 K-1",
-    "Specific heat of the GDH1 plate model", "Stein & Stein 1992, Nature 359:123",
-    500.0, 2000.0,
+    "gdh1_heat_capacity_j_kg_k",
+    1171.0,
+    "J kg-1 K-1",
+    "Specific heat of the GDH1 plate model",
+    "Stein & Stein 1992, Nature 359:123",
+    500.0,
+    2000.0,
 )
 GDH1_DENSITY_KG_M3 = _c(
-    "gdh1_density_kg_m3", 3330.0, "kg m-3", "Mantle density of the GDH1 plate model",
-    "Stein & Stein 1992, Nature 359:123", 3000.0, 3600.0,
+    "gdh1_density_kg_m3",
+    3330.0,
+    "kg m-3",
+    "Mantle density of the GDH1 plate model",
+    "Stein & Stein 1992, Nature 359:123",
+    3000.0,
+    3600.0,
 )
 MANTLE_THERMAL_DIFFUSIVITY_M2_S = _c(
-    "mantle_thermal_diffusivity_m2_s", 0.805e-6, "m2 s-1",
+    "mantle_thermal_diffusivity_m2_s",
+    0.805e-6,
+    "m2 s-1",
     "Thermal diffusivity of oceanic mantle lithosphere (k / (rho c_p) of GDH1)",
-    "Stein & Stein 1992 constants: 3.138 / (3330 x 1171)", 1.0e-7, 3.0e-6,
+    "Stein & Stein 1992 constants: 3.138 / (3330 x 1171)",
+    1.0e-7,
+    3.0e-6,
 )
 BOUNDARY_LAYER_ERF_ARGUMENT = _c(
-    "boundary_layer_erf_argument", 1.16, "1",
+    "boundary_layer_erf_argument",
+    1.16,
+    "1",
     "erf argument defining the half-space thermal boundary layer (T reaches 90 % of the "
     "interior temperature; thickness 2 x 1.16 sqrt(kappa t) = 2.32 sqrt(kappa t))",
-    "Turcotte & Schubert 2002, section 4-16 (from memory)", 0.5, 2.0,
+    "Turcotte & Schubert 2002, section 4-16 (from memory)",
+    0.5,
+    2.0,
 )
 OCEANIC_GEOTHERM = _c(
-    "oceanic_geotherm", "half_space", "",
+    "oceanic_geotherm",
+    "half_space",
+    "",
     "Geotherm used for oceanic cells: half-space cooling with the age implied by heat flow, "
     "or the same conductive model as continents",
     "Turcotte & Schubert 2002 section 4-16; Stein & Stein 1992",
     choices=("half_space", "conductive"),
 )
 OCEANIC_CRUST_MAX_THICKNESS_KM = _c(
-    "oceanic_crust_max_thickness_km", 12.0, "km",
+    "oceanic_crust_max_thickness_km",
+    12.0,
+    "km",
     "Cells with thinner crust are treated as oceanic lithosphere",
     "common practice (normal oceanic crust 7.1 +/- 0.8 km, White, McKenzie & O'Nions 1992, "
-    "from memory)", 5.0, 25.0,
+    "from memory)",
+    5.0,
+    25.0,
 )
 OCEANIC_MAX_AGE_MA = _c(
-    "oceanic_max_age_ma", 200.0, "Ma",
+    "oceanic_max_age_ma",
+    200.0,
+    "Ma",
     "Oldest plate age inferred from heat flow (older seafloor is not preserved)",
-    "common practice (oldest in-situ oceanic crust ~180-200 Ma)", 50.0, 300.0,
+    "common practice (oldest in-situ oceanic crust ~180-200 Ma)",
+    50.0,
+    300.0,
 )
 
 # --------------------------------------------------------------------------------------
 # Outputs of the thermal-state algorithm
 # --------------------------------------------------------------------------------------
 TEMPERATURE_DEPTHS_KM = _c(
-    "temperature_depths_km", (5.0, 10.0, 20.0), "km",
+    "temperature_depths_km",
+    (5.0, 10.0, 20.0),
+    "km",
     "Depths at which a temperature map is written",
-    "common practice (drilling reach, mid and lower crust)", 0.0, 300.0,
+    "common practice (drilling reach, mid and lower crust)",
+    0.0,
+    300.0,
 )
 ISOTHERMS_C = _c(
-    "isotherms_c", (150.0, 350.0, 600.0), "degC",
+    "isotherms_c",
+    (150.0, 350.0, 600.0),
+    "degC",
     "Isotherms whose depth is mapped: 150 degC (power-grade geothermal), 350 degC "
     "(brittle-ductile transition of quartz-rich crust), 600 degC (near the wet granite solidus)",
-    "common practice", 20.0, 1600.0,
+    "common practice",
+    20.0,
+    1600.0,
 )
 
 # --------------------------------------------------------------------------------------
@@ -211,3 +307,553 @@ ISOTHERMS_C = _c(
 # --------------------------------------------------------------------------------------
 GLOBAL_MEAN_HEAT_FLOW_MW_M2 = {"continents": 65.0, "oceans": 101.0, "global": 87.0}
 """Global mean surface heat flow, mW m-2 (Pollack, Hurter & Johnson 1993, Rev. Geophys. 31:267)."""
+
+# --------------------------------------------------------------------------------------
+# Mantle melting: Katz, Spiegelman & Langmuir 2003, G3 4(9):1073, Table 2
+# (dry and hydrous peridotite melting, isentropic decompression)
+# --------------------------------------------------------------------------------------
+_KATZ = "Katz, Spiegelman & Langmuir 2003, G3 4(9):1073, Table 2"
+KATZ_SOLIDUS_A1_C = _c(
+    "katz_solidus_a1_c", 1085.7, "degC", "Dry peridotite solidus at P = 0 (A1, eq. 4)", _KATZ
+)
+KATZ_SOLIDUS_A2_C_GPA = _c(
+    "katz_solidus_a2_c_gpa", 132.9, "degC GPa-1", "Dry solidus, linear term (A2, eq. 4)", _KATZ
+)
+KATZ_SOLIDUS_A3_C_GPA2 = _c(
+    "katz_solidus_a3_c_gpa2", -5.1, "degC GPa-2", "Dry solidus, quadratic term (A3, eq. 4)", _KATZ
+)
+KATZ_LHERZOLITE_LIQUIDUS_B1_C = _c(
+    "katz_lherzolite_liquidus_b1_c",
+    1475.0,
+    "degC",
+    "Lherzolite liquidus at P = 0 (B1, eq. 5)",
+    _KATZ,
+)
+KATZ_LHERZOLITE_LIQUIDUS_B2_C_GPA = _c(
+    "katz_lherzolite_liquidus_b2_c_gpa",
+    80.0,
+    "degC GPa-1",
+    "Lherzolite liquidus, linear term (B2, eq. 5)",
+    _KATZ,
+)
+KATZ_LHERZOLITE_LIQUIDUS_B3_C_GPA2 = _c(
+    "katz_lherzolite_liquidus_b3_c_gpa2",
+    -3.2,
+    "degC GPa-2",
+    "Lherzolite liquidus, quadratic term (B3, eq. 5)",
+    _KATZ,
+)
+KATZ_LIQUIDUS_C1_C = _c(
+    "katz_liquidus_c1_c", 1780.0, "degC", "True (dunite) liquidus at P = 0 (C1, eq. 10)", _KATZ
+)
+KATZ_LIQUIDUS_C2_C_GPA = _c(
+    "katz_liquidus_c2_c_gpa", 45.0, "degC GPa-1", "True liquidus, linear term (C2, eq. 10)", _KATZ
+)
+KATZ_LIQUIDUS_C3_C_GPA2 = _c(
+    "katz_liquidus_c3_c_gpa2",
+    -2.0,
+    "degC GPa-2",
+    "True liquidus, quadratic term (C3, eq. 10)",
+    _KATZ,
+)
+KATZ_CPX_REACTION_R1 = _c(
+    "katz_cpx_reaction_r1",
+    0.50,
+    "1",
+    "Clinopyroxene reaction coefficient at P = 0 (r1, eq. 6; also written r0)",
+    _KATZ,
+)
+KATZ_CPX_REACTION_R2_GPA = _c(
+    "katz_cpx_reaction_r2_gpa",
+    0.08,
+    "GPa-1",
+    "Pressure dependence of the clinopyroxene reaction coefficient (r2, eq. 6)",
+    _KATZ,
+)
+KATZ_BETA1 = _c(
+    "katz_beta1", 1.50, "1", "Melt-fraction exponent while cpx remains (beta1, eq. 3)", _KATZ
+)
+KATZ_BETA2 = _c(
+    "katz_beta2", 1.50, "1", "Melt-fraction exponent after cpx is exhausted (beta2, eq. 9)", _KATZ
+)
+KATZ_WATER_SOLIDUS_K = _c(
+    "katz_water_solidus_k",
+    43.0,
+    "K wt%-0.75",
+    "Solidus depression per (wt% H2O in melt)^gamma (K, eq. 16)",
+    _KATZ,
+)
+KATZ_WATER_SOLIDUS_GAMMA = _c(
+    "katz_water_solidus_gamma",
+    0.75,
+    "1",
+    "Exponent of the solidus depression (gamma, eq. 16)",
+    _KATZ,
+)
+KATZ_WATER_SATURATION_CHI1 = _c(
+    "katz_water_saturation_chi1",
+    12.00,
+    "wt% GPa-0.6",
+    "Water saturation of the melt, power-law term (chi1, eq. 17)",
+    _KATZ,
+)
+KATZ_WATER_SATURATION_CHI2 = _c(
+    "katz_water_saturation_chi2",
+    1.00,
+    "wt% GPa-1",
+    "Water saturation of the melt, linear term (chi2, eq. 17)",
+    _KATZ,
+)
+KATZ_WATER_SATURATION_LAMBDA = _c(
+    "katz_water_saturation_lambda",
+    0.60,
+    "1",
+    "Exponent of the water saturation pressure dependence (lambda, eq. 17)",
+    _KATZ,
+)
+CPX_MASS_FRACTION = _c(
+    "cpx_mass_fraction",
+    0.17,
+    "1",
+    "Modal clinopyroxene mass fraction of the fertile peridotite source (M_cpx, eq. 7)",
+    "Katz, Spiegelman & Langmuir 2003 (0.17 as used in two open implementations; the paper's "
+    "Fig. 2 caption reportedly uses 0.15 - secondary source)",
+    0.05,
+    0.30,
+)
+WATER_PARTITION_COEFFICIENT = _c(
+    "water_partition_coefficient",
+    0.01,
+    "1",
+    "Bulk solid/melt partition coefficient of H2O (D_H2O, eq. 18)",
+    _KATZ + " (Kelley et al. 2006, JGR 111:B09208 use 0.012 - secondary source)",
+    0.001,
+    0.1,
+)
+ENTROPY_OF_FUSION_J_KG_K = _c(
+    "entropy_of_fusion_j_kg_k",
+    300.0,
+    "J kg-1 K-1",
+    "Entropy change on melting of peridotite (Delta S)",
+    _KATZ + " (McKenzie 1984 used 356, secondary source)",
+    100.0,
+    600.0,
+)
+MANTLE_HEAT_CAPACITY_J_KG_K = _c(
+    "mantle_heat_capacity_j_kg_k", 1000.0, "J kg-1 K-1", "Specific heat c_P of mantle", _KATZ
+)
+SOLID_MANTLE_EXPANSIVITY_PER_K = _c(
+    "solid_mantle_expansivity_per_k",
+    4.0e-5,
+    "K-1",
+    "Thermal expansivity of solid mantle (alpha_s)",
+    _KATZ,
+)
+MANTLE_MELT_EXPANSIVITY_PER_K = _c(
+    "mantle_melt_expansivity_per_k",
+    6.8e-5,
+    "K-1",
+    "Thermal expansivity of mantle melt (alpha_f)",
+    _KATZ,
+)
+SOLID_MANTLE_DENSITY_KG_M3 = _c(
+    "solid_mantle_density_kg_m3",
+    3300.0,
+    "kg m-3",
+    "Density of solid mantle (rho_s); also sets lithostatic pressure P = rho_s g z",
+    _KATZ,
+)
+MANTLE_MELT_DENSITY_KG_M3 = _c(
+    "mantle_melt_density_kg_m3", 2900.0, "kg m-3", "Density of mantle melt (rho_f)", _KATZ
+)
+GRAVITY_M_S2 = _c(
+    "gravity_m_s2",
+    9.81,
+    "m s-2",
+    "Gravitational acceleration used for lithostatic pressure",
+    "common practice (standard surface gravity, rounded)",
+)
+H2O_SATURATED_PERIDOTITE_SOLIDUS_C = _c(
+    "h2o_saturated_peridotite_solidus_c",
+    810.0,
+    "degC",
+    "Experimental H2O-saturated peridotite solidus, nearly isothermal over 3-6 GPa "
+    "(reference value; the Katz parameterization is 120-140 K hotter at 3 GPa)",
+    "Till, Grove & Withers 2012, CMP 163:669 (800-820 degC)",
+)
+
+# --------------------------------------------------------------------------------------
+# Decompression melting column (McKenzie & Bickle 1988 melt thickness) and its table
+# --------------------------------------------------------------------------------------
+MANTLE_WATER_WT_PCT = _c(
+    "mantle_water_wt_pct",
+    0.01,
+    "wt%",
+    "Bulk H2O of the ambient (MORB-source) upper mantle",
+    "Hirschmann 2006, Annu. Rev. Earth Planet. Sci. 34:629 (50-200 ppm H2O in the upper "
+    "mantle, abstract); Kelley et al. 2006, JGR 111:B09208 (ridges < 0.05 wt%)",
+    0.0,
+    0.5,
+)
+MELT_THICKNESS_DENSITY_SCALING = _c(
+    "melt_thickness_density_scaling",
+    "none",
+    "",
+    "Column melt thickness as the integral of melt fraction over depth ('none', McKenzie & "
+    "Bickle 1988) or that integral times rho_s / rho_f ('solid_to_melt', volume of melt)",
+    "McKenzie & Bickle 1988, J. Petrol. 29:625",
+    choices=("none", "solid_to_melt"),
+)
+MELTING_TABLE_MIN_POTENTIAL_TEMPERATURE_C = _c(
+    "melting_table_min_potential_temperature_c",
+    1200.0,
+    "degC",
+    "Lowest potential temperature in the precomputed melting table",
+    "common practice (below the 1280-1400 degC ambient range of Herzberg et al. 2007)",
+    900.0,
+    1700.0,
+)
+MELTING_TABLE_MAX_POTENTIAL_TEMPERATURE_C = _c(
+    "melting_table_max_potential_temperature_c",
+    1700.0,
+    "degC",
+    "Highest potential temperature in the precomputed melting table",
+    "common practice (ambient 1350 degC plus the largest plume excess, +300 K, Herzberg et "
+    "al. 2007)",
+    1300.0,
+    1800.0,
+)
+MELTING_TABLE_MAX_WATER_WT_PCT = _c(
+    "melting_table_max_water_wt_pct",
+    0.1,
+    "wt%",
+    "Highest bulk mantle water in the precomputed melting table",
+    "common practice (twice the ridge-source upper bound of Kelley et al. 2006)",
+    0.001,
+    1.0,
+)
+MELTING_TABLE_DEPTH_STEP_KM = _c(
+    "melting_table_depth_step_km",
+    1.0,
+    "km",
+    "Depth step of the precomputed melting table",
+    "common practice (chosen so that table interpolation stays within 0.05 km of melt "
+    "thickness and 0.002 of melt fraction against direct integration)",
+    0.1,
+    5.0,
+)
+MELTING_TABLE_MAX_DEPTH_KM = _c(
+    "melting_table_max_depth_km",
+    300.0,
+    "km",
+    "Deepest point of the melting columns (start of the isentrope)",
+    "common practice (about 9.7 GPa, inside the range of the Katz 2003 solidus, which peaks "
+    "near 13 GPa)",
+    50.0,
+    400.0,
+)
+
+# --------------------------------------------------------------------------------------
+# Flux (water-added) melting in the mantle wedge above a subducting slab
+# --------------------------------------------------------------------------------------
+ARC_SLAB_DEPTH_KM = _c(
+    "arc_slab_depth_km",
+    105.0,
+    "km",
+    "Slab depth beneath the centre of the sub-arc window where slab water reaches the hot "
+    "wedge (global mean slab depth beneath volcanic fronts)",
+    "Syracuse & Abers 2006, G3 7:Q05017 (mean 105 km; segment means 72-173 km); England, "
+    "Engdahl & Thatcher 2004, GJI 156:377 (65-130 km)",
+    65.0,
+    173.0,
+)
+ARC_WINDOW_HALF_WIDTH_KM = _c(
+    "arc_window_half_width_km",
+    25.0,
+    "km",
+    "Half-width of the sub-arc window of slab depths with full water supply (default window "
+    "80-130 km)",
+    "common practice (spans most of the 65-130 km range of England, Engdahl & Thatcher 2004 "
+    "around the 105 km mean of Syracuse & Abers 2006)",
+    5.0,
+    60.0,
+)
+BEHIND_ARC_TAPER_KM = _c(
+    "behind_arc_taper_km",
+    70.0,
+    "km",
+    "Slab-depth interval behind the sub-arc window over which slab water supply falls "
+    "linearly to zero (default: to 200 km slab depth)",
+    "common practice (antigorite breakdown releases the last large water flux at 150-200 km, "
+    "Ulmer & Trommsdorff 1995, Science 268:858; back-arc source water decreases away from the "
+    "trench, Kelley et al. 2006, JGR 111:B09208)",
+    1.0,
+    200.0,
+)
+WEDGE_TEMPERATURE_C = _c(
+    "wedge_temperature_c",
+    1350.0,
+    "degC",
+    "Temperature of the hot mantle-wedge core where flux melting happens",
+    "Kelley et al. 2010, J. Petrol. 51:1711 (Mariana arc melts equilibrate at > 1300 degC from "
+    "mantle of potential temperature ~1350 degC, abstract); Syracuse, van Keken & Abers 2010, "
+    "PEPI (wedge core 1300-1450 degC, from memory)",
+    1000.0,
+    1600.0,
+)
+WEDGE_MELTING_DEPTH_KM = _c(
+    "wedge_melting_depth_km",
+    60.0,
+    "km",
+    "Depth of the wedge melting region (sets its pressure, P = rho_s g z)",
+    "Kelley et al. 2010, J. Petrol. 51:1711 (arc melts equilibrate at 34-87 km beneath the "
+    "Mariana arc, abstract; 60 km is mid-range)",
+    20.0,
+    150.0,
+)
+WEDGE_WATER_WT_PCT = _c(
+    "wedge_water_wt_pct",
+    0.3,
+    "wt%",
+    "Bulk H2O of the wedge melting region where the slab delivers its full water supply",
+    "Kelley et al. 2006, JGR 111:B09208 (back-arc sources up to 0.5 wt% or more, rising "
+    "toward the trench, abstract); Kelley et al. 2010 (arc sources extend that trend to more "
+    "water); 0.3 wt% chosen within that range",
+    0.0,
+    2.0,
+)
+
+# --------------------------------------------------------------------------------------
+# Crustal melting (anatexis) and heating by mafic underplating
+# --------------------------------------------------------------------------------------
+WET_GRANITE_SOLIDUS_PRESSURES_GPA = _c(
+    "wet_granite_solidus_pressures_gpa",
+    (0.1, 0.2, 1.0, 2.5, 3.5),
+    "GPa",
+    "Pressures of the water-saturated granite solidus nodes",
+    "0.2-3.5 GPa: Stern & Wyllie (authors from memory) 1973, EPSL, 'Water-saturated and "
+    "undersaturated melting relations of a granite to 35 kilobars'; 0.1 GPa: haplogranite "
+    "minimum, Tuttle & Bowen 1958, GSA Memoir 74 (from memory)",
+)
+WET_GRANITE_SOLIDUS_TEMPERATURES_C = _c(
+    "wet_granite_solidus_temperatures_c",
+    (720.0, 680.0, 620.0, 655.0, 700.0),
+    "degC",
+    "Water-saturated granite solidus at the pressures of wet_granite_solidus_pressures_gpa",
+    "same as wet_granite_solidus_pressures_gpa",
+)
+CRUST_DENSITY_KG_M3 = _c(
+    "crust_density_kg_m3",
+    2800.0,
+    "kg m-3",
+    "Mean density of continental crust, for lithostatic pressure in the crust",
+    "common practice (2.8-2.85 g cm-3 average continental crust)",
+    2500.0,
+    3100.0,
+)
+WATER_SATURATED_MELT_FRACTION = _c(
+    "water_saturated_melt_fraction",
+    0.02,
+    "1",
+    "Melt fraction reached by fluid-present melting between the wet solidus and the start of "
+    "muscovite dehydration melting (limited by the little free water of deep crust)",
+    "Clemens & Vielzeuf 1987, EPSL 86:287 (free water is scarce, so water-saturated melting "
+    "makes little melt; value from memory)",
+    0.0,
+    0.1,
+)
+MUSCOVITE_MELTING_ONSET_C = _c(
+    "muscovite_melting_onset_c",
+    700.0,
+    "degC",
+    "Start of fluid-absent (dehydration) melting of muscovite",
+    "Thompson 1982; Le Breton & Thompson 1988, CMP 99:226 (muscovite then biotite stages; "
+    "700-750 degC from memory)",
+    600.0,
+    800.0,
+)
+MUSCOVITE_MELTING_END_C = _c(
+    "muscovite_melting_end_c",
+    750.0,
+    "degC",
+    "End of muscovite dehydration melting",
+    "Thompson 1982; Le Breton & Thompson 1988 (from memory)",
+    650.0,
+    850.0,
+)
+MUSCOVITE_MELT_FRACTION = _c(
+    "muscovite_melt_fraction",
+    0.08,
+    "1",
+    "Cumulative melt fraction when muscovite dehydration melting ends",
+    "representative of metapelite experiments (from memory; Clemens & Vielzeuf 1987)",
+    0.0,
+    0.3,
+)
+BIOTITE_MELTING_ONSET_C = _c(
+    "biotite_melting_onset_c",
+    780.0,
+    "degC",
+    "Start of biotite dehydration melting (760-800 degC at 1 GPa)",
+    "Le Breton & Thompson 1988, CMP 99:226",
+    700.0,
+    900.0,
+)
+BIOTITE_MELTING_EXTENSIVE_C = _c(
+    "biotite_melting_extensive_c",
+    850.0,
+    "degC",
+    "Temperature by which biotite dehydration melting is extensive",
+    "Le Breton & Thompson 1988, CMP 99:226; Vielzeuf & Holloway 1988, CMP 98:257 (800-850 "
+    "degC in pelites, from memory)",
+    750.0,
+    950.0,
+)
+BIOTITE_MELT_FRACTION = _c(
+    "biotite_melt_fraction",
+    0.25,
+    "1",
+    "Cumulative melt fraction when biotite dehydration melting is extensive",
+    "tens of percent in pelite and greywacke experiments at 850-900 degC (Vielzeuf & Holloway "
+    "1988; Le Breton & Thompson 1988; value from memory)",
+    0.05,
+    0.6,
+)
+HORNBLENDE_MELTING_ONSET_C = _c(
+    "hornblende_melting_onset_c",
+    850.0,
+    "degC",
+    "Start of hornblende (amphibolite) dehydration melting",
+    "Clemens & Vielzeuf 1987, EPSL 86:287; Rushmer 1991, CMP 107:41 (850-950+ degC, from memory)",
+    750.0,
+    1000.0,
+)
+HORNBLENDE_MELTING_END_C = _c(
+    "hornblende_melting_end_c",
+    950.0,
+    "degC",
+    "Temperature by which hornblende dehydration melting is extensive",
+    "Clemens & Vielzeuf 1987; Rushmer 1991 (from memory)",
+    850.0,
+    1100.0,
+)
+HORNBLENDE_MELT_FRACTION = _c(
+    "hornblende_melt_fraction",
+    0.40,
+    "1",
+    "Cumulative melt fraction when hornblende dehydration melting is extensive (the ramp "
+    "stays at this value above)",
+    "10-40 % melt from amphibolites at 900-1000 degC (Rushmer 1991; Wolf & Wyllie 1994, CMP "
+    "115:369; from memory)",
+    0.1,
+    0.8,
+)
+UNDERPLATE_HEATED_THICKNESS_KM = _c(
+    "underplate_heated_thickness_km",
+    10.0,
+    "km",
+    "Thickness of lower crust that shares the heat of a basaltic underplate",
+    "common practice (order of the conductive length of ~1 Myr, sqrt(kappa t) ~ 6 km, and of "
+    "the sill-heated zones modelled by Huppert & Sparks 1988, J. Petrol. 29:599, from memory)",
+    1.0,
+    40.0,
+)
+MAGMA_LATENT_HEAT_J_KG = _c(
+    "magma_latent_heat_j_kg",
+    4.0e5,
+    "J kg-1",
+    "Latent heat of crystallization of basaltic magma",
+    "Huppert & Sparks 1988, J. Petrol. 29:599 (from memory)",
+    2.0e5,
+    6.0e5,
+)
+MAGMA_HEAT_CAPACITY_J_KG_K = _c(
+    "magma_heat_capacity_j_kg_k",
+    1000.0,
+    "J kg-1 K-1",
+    "Specific heat of basaltic magma and of the crust it heats",
+    "common practice",
+    700.0,
+    1500.0,
+)
+BASALT_DENSITY_KG_M3 = _c(
+    "basalt_density_kg_m3",
+    2900.0,
+    "kg m-3",
+    "Density of underplated basaltic magma",
+    "Katz, Spiegelman & Langmuir 2003 melt density (rho_f)",
+    2600.0,
+    3200.0,
+)
+OROGENIC_MOHO_MAX_TEMPERATURE_C = _c(
+    "orogenic_moho_max_temperature_c",
+    1000.0,
+    "degC",
+    "Highest credible Moho temperature under thickened crust; hotter steady-state values are "
+    "flagged (orogens are not in thermal steady state)",
+    "upper end of the ~700-1000 degC of thickened orogenic crust (from memory)",
+    600.0,
+    1300.0,
+)
+THICK_CRUST_KM = _c(
+    "thick_crust_km",
+    50.0,
+    "km",
+    "Crust at least this thick counts as thickened (orogenic) for the Moho-temperature flag",
+    "Mooney et al. 2004, AGU abstract (crust > 50 km is < 10 % of continental crust)",
+    35.0,
+    80.0,
+)
+
+# --------------------------------------------------------------------------------------
+# Magma crystallization ranges at low pressure (reference values for later use)
+# --------------------------------------------------------------------------------------
+BASALT_LIQUIDUS_C = _c(
+    "basalt_liquidus_c",
+    1200.0,
+    "degC",
+    "Liquidus of basalt at low pressure (fully molten above)",
+    "common practice (textbook ~1200 degC; Kilauea Iki lava lake, Helz & Thornber 1987, from "
+    "memory)",
+    1050.0,
+    1350.0,
+)
+BASALT_SOLIDUS_C = _c(
+    "basalt_solidus_c",
+    1000.0,
+    "degC",
+    "Solidus of basalt at low pressure (fully solid below; 980-1000 degC)",
+    "common practice (textbook; Helz & Thornber 1987, from memory)",
+    900.0,
+    1100.0,
+)
+BASALT_ERUPTION_TEMPERATURE_RANGE_C = _c(
+    "basalt_eruption_temperature_range_c",
+    (1000.0, 1200.0),
+    "degC",
+    "Typical eruption temperatures of basalt",
+    "textbook summary (secondary source)",
+)
+ANDESITE_ERUPTION_TEMPERATURE_RANGE_C = _c(
+    "andesite_eruption_temperature_range_c",
+    (800.0, 1000.0),
+    "degC",
+    "Typical eruption temperatures of andesite",
+    "textbook summary (secondary source)",
+)
+RHYOLITE_ERUPTION_TEMPERATURE_RANGE_C = _c(
+    "rhyolite_eruption_temperature_range_c",
+    (650.0, 800.0),
+    "degC",
+    "Typical eruption temperatures of rhyolite",
+    "textbook summary (secondary source)",
+)
+RHYOLITE_LIQUIDUS_C = _c(
+    "rhyolite_liquidus_c",
+    850.0,
+    "degC",
+    "Liquidus of dry to moderately wet rhyolite (~800-900 degC)",
+    "from memory",
+    700.0,
+    1000.0,
+)

@@ -18,7 +18,14 @@ from geomelt import constants as C
 from geomelt.constants import Constant
 from geomelt.errors import ParameterError
 
-__all__ = ["ParameterSet", "ThermalParameters", "param"]
+__all__ = [
+    "CrustalMeltingParameters",
+    "FluxMeltingParameters",
+    "MantleMeltingParameters",
+    "ParameterSet",
+    "ThermalParameters",
+    "param",
+]
 
 
 def param(const: Constant) -> Any:
@@ -60,8 +67,7 @@ class ParameterSet:
             if const.choices is not None:
                 if value not in const.choices:
                     msg = (
-                        f"parameter {f.name!r} = {value!r} is not one of "
-                        f"{', '.join(const.choices)}"
+                        f"parameter {f.name!r} = {value!r} is not one of {', '.join(const.choices)}"
                     )
                     raise ParameterError(msg)
                 continue
@@ -149,3 +155,122 @@ class ThermalParameters(ParameterSet):
                 "with depth"
             )
             raise ParameterError(msg)
+
+
+@dataclasses.dataclass(frozen=True)
+class MantleMeltingParameters(ParameterSet):
+    """Parameters of decompression melting of the mantle.
+
+    Dry and hydrous batch melting of peridotite after Katz, Spiegelman & Langmuir
+    (2003) along isentropic decompression paths cut off at the base of the lid;
+    column melt thickness as McKenzie & Bickle (1988). The ``melting_table_*``
+    values set the precomputed table that maps use instead of integrating every cell.
+    """
+
+    title: ClassVar[str] = "mantle melting"
+
+    mantle_water_wt_pct: float = param(C.MANTLE_WATER_WT_PCT)
+    cpx_mass_fraction: float = param(C.CPX_MASS_FRACTION)
+    water_partition_coefficient: float = param(C.WATER_PARTITION_COEFFICIENT)
+    melt_thickness_density_scaling: str = param(C.MELT_THICKNESS_DENSITY_SCALING)
+    melting_table_min_potential_temperature_c: float = param(
+        C.MELTING_TABLE_MIN_POTENTIAL_TEMPERATURE_C
+    )
+    melting_table_max_potential_temperature_c: float = param(
+        C.MELTING_TABLE_MAX_POTENTIAL_TEMPERATURE_C
+    )
+    melting_table_max_water_wt_pct: float = param(C.MELTING_TABLE_MAX_WATER_WT_PCT)
+    melting_table_depth_step_km: float = param(C.MELTING_TABLE_DEPTH_STEP_KM)
+    melting_table_max_depth_km: float = param(C.MELTING_TABLE_MAX_DEPTH_KM)
+
+    def __post_init__(self) -> None:
+        super().__post_init__()
+        if self.melting_table_max_potential_temperature_c <= (
+            self.melting_table_min_potential_temperature_c
+        ):
+            msg = (
+                "parameter 'melting_table_max_potential_temperature_c' "
+                f"({self.melting_table_max_potential_temperature_c:g}) must exceed "
+                "'melting_table_min_potential_temperature_c' "
+                f"({self.melting_table_min_potential_temperature_c:g})"
+            )
+            raise ParameterError(msg)
+        if self.mantle_water_wt_pct > self.melting_table_max_water_wt_pct:
+            msg = (
+                f"parameter 'mantle_water_wt_pct' ({self.mantle_water_wt_pct:g} wt%) exceeds "
+                f"'melting_table_max_water_wt_pct' ({self.melting_table_max_water_wt_pct:g}); "
+                "raise the table maximum so the melting table covers it"
+            )
+            raise ParameterError(msg)
+
+
+@dataclasses.dataclass(frozen=True)
+class FluxMeltingParameters(ParameterSet):
+    """Parameters of flux (water-added) melting in the mantle wedge above a slab.
+
+    Slab water reaches the hot wedge where the slab is at sub-arc depths
+    (Syracuse & Abers 2006; England, Engdahl & Thatcher 2004) and falls off behind
+    the arc; the wedge melts by the hydrous parameterization of Katz, Spiegelman &
+    Langmuir (2003) at a fixed wedge temperature and depth.
+    """
+
+    title: ClassVar[str] = "flux melting"
+
+    arc_slab_depth_km: float = param(C.ARC_SLAB_DEPTH_KM)
+    arc_window_half_width_km: float = param(C.ARC_WINDOW_HALF_WIDTH_KM)
+    behind_arc_taper_km: float = param(C.BEHIND_ARC_TAPER_KM)
+    wedge_temperature_c: float = param(C.WEDGE_TEMPERATURE_C)
+    wedge_melting_depth_km: float = param(C.WEDGE_MELTING_DEPTH_KM)
+    wedge_water_wt_pct: float = param(C.WEDGE_WATER_WT_PCT)
+
+
+@dataclasses.dataclass(frozen=True)
+class CrustalMeltingParameters(ParameterSet):
+    """Parameters of crustal melting (anatexis) and of heating by mafic underplating.
+
+    Melt fraction rises piecewise-linearly with temperature: a little melt at the
+    water-saturated granite solidus, then muscovite, biotite (Le Breton & Thompson
+    1988) and hornblende (Clemens & Vielzeuf 1987) dehydration melting.
+    """
+
+    title: ClassVar[str] = "crustal melting"
+
+    crust_density_kg_m3: float = param(C.CRUST_DENSITY_KG_M3)
+    water_saturated_melt_fraction: float = param(C.WATER_SATURATED_MELT_FRACTION)
+    muscovite_melting_onset_c: float = param(C.MUSCOVITE_MELTING_ONSET_C)
+    muscovite_melting_end_c: float = param(C.MUSCOVITE_MELTING_END_C)
+    muscovite_melt_fraction: float = param(C.MUSCOVITE_MELT_FRACTION)
+    biotite_melting_onset_c: float = param(C.BIOTITE_MELTING_ONSET_C)
+    biotite_melting_extensive_c: float = param(C.BIOTITE_MELTING_EXTENSIVE_C)
+    biotite_melt_fraction: float = param(C.BIOTITE_MELT_FRACTION)
+    hornblende_melting_onset_c: float = param(C.HORNBLENDE_MELTING_ONSET_C)
+    hornblende_melting_end_c: float = param(C.HORNBLENDE_MELTING_END_C)
+    hornblende_melt_fraction: float = param(C.HORNBLENDE_MELT_FRACTION)
+    underplate_heated_thickness_km: float = param(C.UNDERPLATE_HEATED_THICKNESS_KM)
+    orogenic_moho_max_temperature_c: float = param(C.OROGENIC_MOHO_MAX_TEMPERATURE_C)
+    thick_crust_km: float = param(C.THICK_CRUST_KM)
+
+    def __post_init__(self) -> None:
+        super().__post_init__()
+        stages = (
+            "muscovite_melting_onset_c",
+            "muscovite_melting_end_c",
+            "biotite_melting_onset_c",
+            "biotite_melting_extensive_c",
+            "hornblende_melting_onset_c",
+            "hornblende_melting_end_c",
+        )
+        fractions = (
+            "water_saturated_melt_fraction",
+            "muscovite_melt_fraction",
+            "biotite_melt_fraction",
+            "hornblende_melt_fraction",
+        )
+        for names, what in ((stages, "temperatures"), (fractions, "melt fractions")):
+            values = [getattr(self, n) for n in names]
+            if any(later < earlier for earlier, later in zip(values[:-1], values[1:], strict=True)):
+                msg = (
+                    f"crustal melting {what} must not decrease in the order "
+                    f"{', '.join(names)}; got {', '.join(f'{v:g}' for v in values)}"
+                )
+                raise ParameterError(msg)

@@ -59,3 +59,17 @@ def c_to_k(value_c):
 def k_to_c(value_k):
     """Temperature in K to °C."""
     return value_k - KELVIN_OFFSET
+
+
+PA_PER_GPA = 1.0e9
+"""Pascals per gigapascal (SI prefix giga)."""
+
+
+def gpa_to_pa(value_gpa):
+    """Pressure in GPa to Pa."""
+    return value_gpa * PA_PER_GPA
+
+
+def pa_to_gpa(value_pa):
+    """Pressure in Pa to GPa."""
+    return value_pa / PA_PER_GPA
