@@ -857,3 +857,49 @@ RHYOLITE_LIQUIDUS_C = _c(
     700.0,
     1000.0,
 )
+
+# --------------------------------------------------------------------------------------
+# Hotspots and underplating (how melting products feed each other)
+# --------------------------------------------------------------------------------------
+HOTSPOT_EXCESS_TEMPERATURE_K = _c(
+    "hotspot_excess_temperature_k",
+    200.0,
+    "K",
+    "Excess potential temperature at a hotspot centre when its point has no "
+    "excess_temperature_k attribute",
+    "White & McKenzie 1989, JGR 94:7685 (plume heads +100 to +200 K); Herzberg et al. 2007, "
+    "G3 (plumes +200 to +300 K)",
+    0.0,
+    400.0,
+)
+HOTSPOT_RADIUS_KM = _c(
+    "hotspot_radius_km",
+    300.0,
+    "km",
+    "Radius at which a hotspot's excess temperature falls to 1/e of its peak (Gaussian "
+    "profile) when its point has no radius_km attribute",
+    "common practice (plume stems a few hundred km across; from memory)",
+    20.0,
+    2000.0,
+)
+UNDERPLATE_TRAPPED_FRACTION = _c(
+    "underplate_trapped_fraction",
+    0.5,
+    "1",
+    "Fraction of the mantle melt beneath continental crust that stalls at the Moho and heats "
+    "the lower crust",
+    "common practice; most continental magma stays in the crust (intrusive:extrusive ~10:1, "
+    "Crisp 1984, JVGR 20:177)",
+    0.0,
+    1.0,
+)
+WEDGE_MELT_COLUMN_KM = _c(
+    "wedge_melt_column_km",
+    30.0,
+    "km",
+    "Height of the mantle-wedge melting region; wedge melt fraction x this height gives the "
+    "melt thickness delivered beneath an arc",
+    "from memory (arc melting regions span a few tens of km in wedge thermal models)",
+    1.0,
+    100.0,
+)

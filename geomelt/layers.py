@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-__all__ = ["INPUT_LAYERS", "InputLayer", "OutputLayer"]
+__all__ = ["GRID_LAYERS", "INPUT_LAYERS", "InputLayer", "OutputLayer"]
 
 
 @dataclass(frozen=True)
@@ -28,6 +28,8 @@ class InputLayer:
     required: bool
     plausible_range: tuple[float, float] | None = None
     resampling: str = "bilinear"
+    sparse: bool = False
+    """True when nodata means "absent here" (a slab exists only in places)."""
 
 
 INPUT_LAYERS: dict[str, InputLayer] = {
@@ -52,6 +54,7 @@ INPUT_LAYERS: dict[str, InputLayer] = {
             "where there is no slab",
             False,
             (0.0, 700.0),
+            sparse=True,
         ),
         InputLayer(
             "plate_boundaries",
@@ -72,6 +75,13 @@ INPUT_LAYERS: dict[str, InputLayer] = {
 }
 
 
+GRID_LAYERS: dict[str, str] = {
+    "cell_lon_deg": "Cell-centre longitude on WGS84, degrees (from the reference grid)",
+    "cell_lat_deg": "Cell-centre latitude on WGS84, degrees (from the reference grid)",
+}
+"""Per-cell layers the pipeline derives from the reference grid itself."""
+
+
 @dataclass(frozen=True)
 class OutputLayer:
     """An output raster an algorithm produces: one GeoTIFF ``<name>.tif``.
@@ -87,3 +97,7 @@ class OutputLayer:
     dtype: str = "float32"
     nodata: float = float("nan")
     categorical: bool = False
+    scheme: str | None = None
+    """Name of the :mod:`geomelt.classes` scheme of a categorical output."""
+    flag_message: str | None = None
+    """For 0/1 flag outputs: warning reported with the count of flagged cells."""

@@ -169,6 +169,9 @@ class MantleMeltingParameters(ParameterSet):
 
     title: ClassVar[str] = "mantle melting"
 
+    mantle_potential_temperature_c: float = param(C.MANTLE_POTENTIAL_TEMPERATURE_C)
+    hotspot_excess_temperature_k: float = param(C.HOTSPOT_EXCESS_TEMPERATURE_K)
+    hotspot_radius_km: float = param(C.HOTSPOT_RADIUS_KM)
     mantle_water_wt_pct: float = param(C.MANTLE_WATER_WT_PCT)
     cpx_mass_fraction: float = param(C.CPX_MASS_FRACTION)
     water_partition_coefficient: float = param(C.WATER_PARTITION_COEFFICIENT)
@@ -222,6 +225,9 @@ class FluxMeltingParameters(ParameterSet):
     wedge_temperature_c: float = param(C.WEDGE_TEMPERATURE_C)
     wedge_melting_depth_km: float = param(C.WEDGE_MELTING_DEPTH_KM)
     wedge_water_wt_pct: float = param(C.WEDGE_WATER_WT_PCT)
+    mantle_water_wt_pct: float = param(C.MANTLE_WATER_WT_PCT)
+    cpx_mass_fraction: float = param(C.CPX_MASS_FRACTION)
+    water_partition_coefficient: float = param(C.WATER_PARTITION_COEFFICIENT)
 
 
 @dataclasses.dataclass(frozen=True)
@@ -247,6 +253,9 @@ class CrustalMeltingParameters(ParameterSet):
     hornblende_melting_end_c: float = param(C.HORNBLENDE_MELTING_END_C)
     hornblende_melt_fraction: float = param(C.HORNBLENDE_MELT_FRACTION)
     underplate_heated_thickness_km: float = param(C.UNDERPLATE_HEATED_THICKNESS_KM)
+    underplate_trapped_fraction: float = param(C.UNDERPLATE_TRAPPED_FRACTION)
+    wedge_melt_column_km: float = param(C.WEDGE_MELT_COLUMN_KM)
+    oceanic_crust_max_thickness_km: float = param(C.OCEANIC_CRUST_MAX_THICKNESS_KM)
     orogenic_moho_max_temperature_c: float = param(C.OROGENIC_MOHO_MAX_TEMPERATURE_C)
     thick_crust_km: float = param(C.THICK_CRUST_KM)
 

@@ -12,23 +12,22 @@ from geomelt.algorithms import algorithm_chain, registered_algorithms
 from geomelt.layers import INPUT_LAYERS
 
 ALGORITHMS = list(registered_algorithms().values())
-UNIT_SUFFIXES = (
-    "_km",
-    "_c",
-    "_k",
-    "_mw_m2",
-    "_uw_m3",
-    "_w_m_k",
-    "_ma",
-    "_m2_s",
-    "_j_kg_k",
-    "_kg_m3",
-    "_k_km",
-    "_fraction",
-    "_argument",
-    "_partition",
-    "_geotherm",
-)
+UNIT_SUFFIX = {
+    # unit text -> suffix a parameter or output name with that unit must end with
+    "km": "_km",
+    "degC": "_c",
+    "K": "_k",
+    "Ma": "_ma",
+    "wt%": "_wt_pct",
+    "mW m-2": "_mw_m2",
+    "uW m-3": "_uw_m3",
+    "W m-1 K-1": "_w_m_k",
+    "K km-1": "_k_km",
+    "m2 s-1": "_m2_s",
+    "kg m-3": "_kg_m3",
+    "J kg-1 K-1": "_j_kg_k",
+}
+DIMENSIONLESS = ("", "1")
 
 
 @pytest.mark.parametrize("alg", ALGORITHMS, ids=lambda a: a.id)
@@ -39,11 +38,15 @@ def test_declaration_is_complete(alg):
         const = f.metadata["constant"]
         assert const.source, f"{f.name} has no source"
         assert const.description, f"{f.name} has no description"
-        assert f.name.endswith(UNIT_SUFFIXES) or const.unit in ("", "1"), (
-            f"parameter {f.name} ({const.unit}) does not carry its unit in its name"
-        )
+        if const.unit not in DIMENSIONLESS:
+            assert const.unit in UNIT_SUFFIX, f"add the unit {const.unit!r} to UNIT_SUFFIX"
+            assert f.name.endswith(UNIT_SUFFIX[const.unit]), (
+                f"parameter {f.name} ({const.unit}) does not carry its unit in its name"
+            )
     for out in alg.output_layers():
         assert out.unit, f"{out.name} has no unit"
+        if out.unit not in DIMENSIONLESS:
+            assert out.name.endswith(UNIT_SUFFIX[out.unit]), f"{out.name} lacks its unit"
         assert out.long_name and out.description
 
 

@@ -11,15 +11,21 @@ import logging
 from importlib.metadata import entry_points
 
 from geomelt.algorithms.base import Algorithm
+from geomelt.algorithms.melting import CRUSTAL_MELTING, DECOMPRESSION_MELTING, FLUX_MELTING
 from geomelt.algorithms.thermal import THERMAL_STATE
 from geomelt.errors import GeomeltError
-from geomelt.layers import INPUT_LAYERS
+from geomelt.layers import GRID_LAYERS, INPUT_LAYERS
 
 __all__ = ["Algorithm", "algorithm_chain", "get_algorithm", "registered_algorithms"]
 
 log = logging.getLogger(__name__)
 
-_BUILTIN: tuple[Algorithm, ...] = (THERMAL_STATE,)
+_BUILTIN: tuple[Algorithm, ...] = (
+    THERMAL_STATE,
+    DECOMPRESSION_MELTING,
+    FLUX_MELTING,
+    CRUSTAL_MELTING,
+)
 
 
 def registered_algorithms() -> dict[str, Algorithm]:
@@ -76,14 +82,14 @@ def algorithm_chain(ids: list[str] | None = None) -> list[Algorithm]:
             raise GeomeltError(msg)
         visiting.add(alg.id)
         for name in alg.inputs:
-            if name in INPUT_LAYERS:
+            if name in INPUT_LAYERS or name in GRID_LAYERS:
                 continue
             if name not in producer:
                 msg = f"algorithm {alg.id!r} reads {name!r}, which no algorithm produces"
                 raise GeomeltError(msg)
             visit(algs[producer[name]])
         for name in alg.optional_inputs:
-            if name not in INPUT_LAYERS and name in producer:
+            if name not in INPUT_LAYERS and name not in GRID_LAYERS and name in producer:
                 visit(algs[producer[name]])
         visiting.discard(alg.id)
         ordered.append(alg)

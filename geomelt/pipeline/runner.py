@@ -29,6 +29,7 @@ from rasterio.enums import Resampling
 
 import geomelt
 from geomelt.algorithms import Algorithm, algorithm_chain
+from geomelt.classes import SCHEMES
 from geomelt.errors import (
     GeomeltIOError,
     MissingLayerError,
@@ -40,8 +41,9 @@ from geomelt.io.geopackage import write_run_metadata
 from geomelt.io.geotiff import GeoTiffWriter
 from geomelt.io.rasters import AlignedRaster, RasterGrid, read_grid
 from geomelt.io.vectors import read_hotspots, read_plate_boundaries
-from geomelt.layers import INPUT_LAYERS, OutputLayer
+from geomelt.layers import GRID_LAYERS, INPUT_LAYERS, OutputLayer
 from geomelt.parameters import ParameterSet
+from geomelt.tectonics.hotspots import HotspotSet
 
 __all__ = ["OutputStats", "RunPlan", "RunResult", "execute_run", "plan_run"]
 
@@ -105,6 +107,10 @@ class RunPlan:
     outputs: list[tuple[Algorithm, OutputLayer]]
     block_size: int
     notes: list[str] = field(default_factory=list)
+    vectors: dict[str, Any] = field(default_factory=dict)
+    """Vector inputs prepared for the algorithms (e.g. ``hotspots`` as a HotspotSet)."""
+    grid_layers: set[str] = field(default_factory=set)
+    """Grid-derived layers (cell longitude/latitude) some algorithm reads."""
 
     def as_dict(self) -> dict[str, Any]:
         """JSON-ready summary of the plan."""
@@ -203,12 +209,17 @@ def plan_run(config: RunConfig, algorithm_ids: list[str] | None = None) -> RunPl
                 f"'{name}' ({src.describe()}) will be reprojected onto the reference grid "
                 f"with {INPUT_LAYERS[name].resampling} resampling"
             )
+    vectors: dict[str, Any] = {}
     for name, path in sorted(vector_inputs.items()):
         if name == "plate_boundaries":
             gdf = read_plate_boundaries(path)
         else:
             gdf = read_hotspots(path)
+            vectors[name] = HotspotSet.from_frame(gdf)
         notes.append(f"'{name}': {len(gdf)} feature(s) read and checked")
+    grid_layers = {
+        n for alg in algorithms for n in alg.inputs + alg.optional_inputs if n in GRID_LAYERS
+    }
 
     outputs: list[tuple[Algorithm, OutputLayer]] = []
     seen: dict[str, str] = {}
@@ -230,6 +241,8 @@ def plan_run(config: RunConfig, algorithm_ids: list[str] | None = None) -> RunPl
         outputs=outputs,
         block_size=int(config.run["block_size"]),
         notes=notes + [f"{len(input_paths)} input file(s); {len(outputs)} raster output(s)"],
+        vectors=vectors,
+        grid_layers=grid_layers,
     )
 
 
@@ -320,19 +333,21 @@ def execute_run(
     writers: dict[str, GeoTiffWriter] = {}
     readers: dict[str, AlignedRaster] = {}
     implausible: dict[str, int] = {}
+    flagged: dict[str, int] = {}
     try:
         with warnings.catch_warnings(record=True) as caught, rasterio.Env(GDAL_CACHEMAX=256):
             warnings.simplefilter("always")
             for name, path in sorted(plan.raster_inputs.items()):
                 resampling = Resampling[INPUT_LAYERS[name].resampling]
                 readers[name] = AlignedRaster(path, name, grid, resampling=resampling)
-                if readers[name].overlap_fraction < 0.999:
+                if readers[name].overlap_fraction < 0.999 and not INPUT_LAYERS[name].sparse:
                     run_warnings.append(
                         f"input layer '{name}' covers only "
                         f"{100 * readers[name].overlap_fraction:.0f} % of the reference grid; "
                         "cells outside it are nodata"
                     )
             for alg, out in plan.outputs:
+                scheme = SCHEMES[out.scheme] if out.scheme else None
                 writers[out.name] = GeoTiffWriter(
                     out_dir / f"{out.name}.tif",
                     staging,
@@ -342,6 +357,7 @@ def execute_run(
                     description=out.name,
                     unit=out.unit,
                     categorical=out.categorical,
+                    colormap=scheme.colormap() if scheme else None,
                     block_size=plan.block_size,
                     band_tags={
                         "long_name": out.long_name,
@@ -360,10 +376,12 @@ def execute_run(
             windows = list(grid.windows(plan.block_size))
             bar = _progress_bar(len(windows), progress)
             for i, window in enumerate(windows):
-                arrays: dict[str, np.ndarray] = {}
+                arrays: dict[str, Any] = dict(plan.vectors)
                 for name, reader in readers.items():
                     arrays[name] = reader.read(window)
                     _check_plausible(name, arrays[name], implausible)
+                if plan.grid_layers:
+                    arrays["cell_lon_deg"], arrays["cell_lat_deg"] = grid.lonlat(window)
                 for alg in plan.algorithms:
                     args = {n: arrays[n] for n in alg.inputs}
                     args.update({n: arrays[n] for n in alg.optional_inputs if n in arrays})
@@ -371,6 +389,10 @@ def execute_run(
                 for _, out in plan.outputs:
                     writers[out.name].write(arrays[out.name], window)
                     stats[out.name].update(arrays[out.name], out.nodata)
+                    if out.flag_message:
+                        flagged[out.name] = flagged.get(out.name, 0) + int(
+                            np.count_nonzero(arrays[out.name] == 1)
+                        )
                 bar.update(1)
                 if on_window is not None:
                     on_window(i + 1, len(windows))
@@ -386,6 +408,9 @@ def execute_run(
             if text not in seen:
                 seen.add(text)
                 run_warnings.append(text)
+        for _, out in plan.outputs:
+            if flagged.get(out.name):
+                run_warnings.append(f"{flagged[out.name]} {out.flag_message}")
         for name, n in implausible.items():
             if n:
                 lo, hi = INPUT_LAYERS[name].plausible_range
