@@ -1,0 +1,123 @@
+"""Quick-look PNG maps."""
+
+from __future__ import annotations
+
+import time
+
+import geopandas as gpd
+import matplotlib.image as mpimg
+import numpy as np
+import pytest
+from affine import Affine
+from shapely.geometry import LineString, Point
+
+from geomelt.classes import SETTING
+from geomelt.io.quicklook import class_map_png, continuous_map_png, nice_length, north_angle
+
+CRS = "EPSG:32633"
+TRANSFORM = Affine(5000, 0, 100_000, 0, -5000, 7_000_000)
+CAUTION = "Regional screening estimate; not a substitute for site investigation."
+
+
+def class_array(rows=300, cols=400) -> np.ndarray:
+    a = np.full((rows, cols), 1, np.uint8)
+    a[:, cols // 2 :] = 2
+    a[rows // 3 : 2 * rows // 3, cols // 8 : cols // 3] = 6
+    a[:10, :10] = SETTING.nodata
+    return a
+
+
+@pytest.fixture
+def overlays():
+    x0, y0 = TRANSFORM.c, TRANSFORM.f
+    bnd = gpd.GeoDataFrame(
+        {"boundary_type": ["ridge", "subduction", "transform"]},
+        geometry=[
+            LineString([(x0 + 1e6, y0 - 1e5), (x0 + 1e6, y0 - 1.4e6)]),
+            LineString([(x0 + 3e5, y0 - 1e5), (x0 + 4e5, y0 - 1.4e6)]),
+            LineString([(x0 + 1.2e6, y0 - 7e5), (x0 + 1.8e6, y0 - 7e5)]),
+        ],
+        crs=CRS,
+    )
+    spots = gpd.GeoDataFrame(geometry=[Point(x0 + 1.5e6, y0 - 5e5)], crs=CRS)
+    return bnd, spots
+
+
+def test_class_map(tmp_path, overlays):
+    bnd, spots = overlays
+    out = tmp_path / "maps" / "setting.png"
+    start = time.perf_counter()
+    info = class_map_png(
+        out,
+        class_array(),
+        TRANSFORM,
+        CRS,
+        SETTING,
+        "Tectonic-magmatic setting",
+        bnd,
+        spots,
+        footnote=CAUTION,
+    )
+    elapsed = time.perf_counter() - start
+    assert out.is_file() and out.stat().st_size > 10_000
+    assert not list(out.parent.glob(".*.tmp"))
+    assert out.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    img = mpimg.imread(out)
+    assert img.shape[:2] == (750, 1000)
+    assert info.size_px == (1000, 750)
+    by_code = SETTING.by_code()
+    assert info.legend_labels == tuple(by_code[c].label for c in (1, 2, 6))
+    assert info.north == "true north"
+    # Map centre 600 km east of the UTM 33N central meridian at ~62 N: true north is
+    # west of grid north (meridian convergence about 8 degrees).
+    assert -10 < info.north_angle_deg < -5
+    assert info.scale_bar_km > 0
+    assert info.decimation == 1
+    assert elapsed < 5.0  # generous bound for slow CI; ~0.2 s measured
+
+
+def test_class_map_legend_drops_absent_classes(tmp_path):
+    a = class_array()
+    a[a == 6] = 1
+    info = class_map_png(tmp_path / "s.png", a, TRANSFORM, CRS, SETTING, "Setting")
+    assert info.legend_labels == ("stable interior", "mid-ocean ridge")
+
+
+def test_continuous_map_and_decimation(tmp_path, overlays):
+    bnd, spots = overlays
+    rows, cols = 1600, 3200  # long side above the 1500-cell limit: decimated by 3
+    x = np.linspace(0.0, 12.0, cols, dtype=np.float32)[None, :] + np.zeros((rows, 1), np.float32)
+    x[:100, :100] = np.nan
+    tr = Affine(500, 0, 100_000, 0, -500, 7_000_000)
+    out = tmp_path / "melt.png"
+    info = continuous_map_png(
+        out, x, tr, CRS, "Melt thickness", "km", boundaries=bnd, hotspots=spots, footnote=CAUTION
+    )
+    assert out.stat().st_size > 10_000
+    assert mpimg.imread(out).shape[:2] == (750, 1000)
+    assert info.decimation == 3
+    assert info.legend_labels == ()
+
+
+def test_scale_bar_geographic(tmp_path):
+    a = class_array(200, 300)
+    tr = Affine(0.02, 0, 10.0, 0, -0.02, 62.0)  # 6 x 4 degrees at 58-62 N
+    info = class_map_png(tmp_path / "g.png", a, tr, "EPSG:4326", SETTING, "Geographic")
+    # The bar is drawn at 6 % of the height (58.24 N) and sized to at most a quarter of
+    # the width: 1.5 degrees of longitude on that parallel.
+    from pyproj import Geod
+
+    _, _, metres = Geod(ellps="WGS84").inv(10.3, 58.24, 11.8, 58.24)
+    assert 85 < metres / 1000 < 90
+    assert info.scale_bar_km == nice_length(metres / 1000) == 50.0
+    assert info.north == "true north" and info.north_angle_deg == 0.0
+
+
+def test_helpers():
+    assert nice_length(730) == 500
+    assert nice_length(300) == 250
+    assert nice_length(0.9) == 0.5
+    assert nice_length(0) == 0
+    assert north_angle("EPSG:4326", 10, 50) == 0.0
+    assert north_angle(CRS, 500_000, 7_000_000) == pytest.approx(0.0, abs=1e-6)
+    assert north_angle(None, 0, 0) is None
