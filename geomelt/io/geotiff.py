@@ -100,6 +100,7 @@ class GeoTiffWriter:
         block_size: int = 512,
         categorical: bool = False,
         colormap: Mapping[int, tuple[int, int, int, int]] | None = None,
+        scheme=None,
     ):
         self.final_path = Path(final_path)
         self.staging_path = Path(staging_dir) / self.final_path.name
@@ -107,6 +108,9 @@ class GeoTiffWriter:
         self.dtype = np.dtype(dtype)
         self.nodata = nodata
         self.categorical = categorical
+        self.scheme = scheme
+        self.sidecars: list[Path] = []
+        self._seen = np.zeros(256, dtype=bool) if scheme is not None else None
         # Tiles of 256 cells unless the processing windows are not a multiple of that;
         # windows must cover whole tiles or compressed tiles get rewritten.
         block = 256 if block_size % 256 == 0 else max(16, block_size // 16 * 16)
@@ -131,6 +135,8 @@ class GeoTiffWriter:
             self._ds.update_tags(1, **{k: _tag_value(v) for k, v in band_tags.items()})
         if dataset_tags:
             self._ds.update_tags(**{k: _tag_value(v) for k, v in dataset_tags.items()})
+        if colormap is None and scheme is not None:
+            colormap = scheme.colormap()
         if colormap:
             self._ds.write_colormap(1, dict(colormap))
 
@@ -139,7 +145,10 @@ class GeoTiffWriter:
         arr = np.asarray(array)
         if self.dtype.kind != "f":
             arr = np.where(np.isnan(arr), self.nodata, arr) if arr.dtype.kind == "f" else arr
-        self._ds.write(arr.astype(self.dtype, copy=False), 1, window=window)
+        arr = arr.astype(self.dtype, copy=False)
+        if self._seen is not None:
+            self._seen |= np.bincount(arr.ravel(), minlength=256)[:256] > 0
+        self._ds.write(arr, 1, window=window)
 
     def finish(self) -> Path:
         """Add overviews, close the file and move it into place."""
@@ -151,6 +160,21 @@ class GeoTiffWriter:
             self._ds.build_overviews(factors, method)
             self._ds.update_tags(ns="rio_overview", resampling=method.name)
         self._ds.close()
+        if self.scheme is not None:
+            # Category names (.aux.xml), a QGIS style listing only the classes present
+            # (.qml) and an OGC SLD, staged with the file and moved in before it.
+            from geomelt.io.styles import write_raster_styles
+
+            present = [int(c) for c in np.flatnonzero(self._seen) if c != self.nodata]
+            staged = write_raster_styles(self.staging_path, self.scheme, present)
+            for path in staged.values():
+                final = self.final_path.parent / (
+                    self.final_path.name + path.name[len(self.staging_path.name) :]
+                    if path.name.startswith(self.staging_path.name)
+                    else self.final_path.stem + path.suffix
+                )
+                os.replace(path, final)
+                self.sidecars.append(final)
         os.replace(self.staging_path, self.final_path)
         return self.final_path
 
@@ -160,3 +184,5 @@ class GeoTiffWriter:
             self._ds.close()
         finally:
             self.staging_path.unlink(missing_ok=True)
+            for suffix in (".aux.xml",):
+                Path(str(self.staging_path) + suffix).unlink(missing_ok=True)

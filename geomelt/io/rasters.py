@@ -28,7 +28,14 @@ from rasterio.windows import Window
 
 from geomelt.errors import GeomeltWarning, InputLayerError, LayerMismatchError, MissingLayerError
 
-__all__ = ["AlignedRaster", "RasterGrid", "crs_label", "open_raster_checked", "read_grid"]
+__all__ = [
+    "AlignedRaster",
+    "RasterGrid",
+    "crs_label",
+    "open_raster_checked",
+    "read_grid",
+    "sample_inputs_at",
+]
 
 log = logging.getLogger(__name__)
 
@@ -296,3 +303,64 @@ class AlignedRaster:
 
     def __exit__(self, *exc) -> None:
         self.close()
+
+
+def sample_inputs_at(grid: RasterGrid, raster_inputs: dict, x: float, y: float, crs=None):
+    """Values of every raster input in the reference-grid cell containing a point.
+
+    The inputs are read through :class:`AlignedRaster` exactly as a map run
+    reads them, so a probed cell agrees with the maps.
+
+    Parameters
+    ----------
+    grid : RasterGrid
+        Reference grid.
+    raster_inputs : dict
+        Input layer name -> path.
+    x, y : float
+        Location, in ``crs`` (default: the grid's CRS).
+    crs : str, optional
+        CRS of the location, e.g. ``"EPSG:4326"`` (longitude, latitude order).
+
+    Returns
+    -------
+    values : dict
+        Input name -> value (NaN where nodata).
+    location : dict
+        Point in the grid CRS, its longitude/latitude, cell row and column.
+
+    Raises
+    ------
+    LayerMismatchError
+        The point lies outside the reference grid.
+    """
+    from rasterio.transform import rowcol
+
+    gx, gy = x, y
+    if crs is not None:
+        tr = Transformer.from_crs(crs, grid.crs.to_wkt(), always_xy=True)
+        gx, gy = tr.transform(x, y)
+    row, col = rowcol(grid.transform, gx, gy)
+    if not (0 <= row < grid.height and 0 <= col < grid.width):
+        msg = (
+            f"location ({x:g}, {y:g}{', ' + str(crs) if crs else ''}) lies outside the reference "
+            f"grid ({grid.describe()}); give a point inside it (use --crs or --lonlat if it is "
+            "in another CRS)."
+        )
+        raise LayerMismatchError(msg)
+    window = Window(col, row, 1, 1)
+    values = {}
+    for name, path in raster_inputs.items():
+        with AlignedRaster(path, name, grid) as reader:
+            values[name] = float(reader.read(window)[0, 0])
+    lon, lat = grid.lonlat(window)
+    location = {
+        "x": float(gx),
+        "y": float(gy),
+        "crs": crs_label(grid.crs),
+        "lon": float(lon[0, 0]),
+        "lat": float(lat[0, 0]),
+        "row": int(row),
+        "col": int(col),
+    }
+    return values, location

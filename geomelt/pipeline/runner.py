@@ -45,7 +45,7 @@ from geomelt.layers import GRID_LAYERS, INPUT_LAYERS, OutputLayer
 from geomelt.parameters import ParameterSet
 from geomelt.tectonics.hotspots import HotspotSet
 
-__all__ = ["OutputStats", "RunPlan", "RunResult", "execute_run", "plan_run"]
+__all__ = ["OutputStats", "RunPlan", "RunResult", "execute_run", "plan_run", "resolve_chain"]
 
 log = logging.getLogger(__name__)
 
@@ -161,6 +161,14 @@ def _resolve_parameters(config: RunConfig, algorithms: list[Algorithm]) -> dict[
     return {alg.id: alg.parameters.from_mapping(config.parameters) for alg in algorithms}
 
 
+def resolve_chain(
+    config: RunConfig, algorithm_ids: list[str] | None = None
+) -> tuple[list[Algorithm], dict[str, ParameterSet]]:
+    """The algorithms to run (dependency order) and each one's validated parameters."""
+    algorithms = algorithm_chain(algorithm_ids)
+    return algorithms, _resolve_parameters(config, algorithms)
+
+
 def plan_run(config: RunConfig, algorithm_ids: list[str] | None = None) -> RunPlan:
     """Resolve and check a run without writing anything.
 
@@ -169,8 +177,7 @@ def plan_run(config: RunConfig, algorithm_ids: list[str] | None = None) -> RunPl
     ParameterError, MissingLayerError, InputLayerError, LayerMismatchError
         With a message naming the parameter or layer and the fix.
     """
-    algorithms = algorithm_chain(algorithm_ids)
-    params = _resolve_parameters(config, algorithms)
+    algorithms, params = resolve_chain(config, algorithm_ids)
 
     needed: set[str] = set()
     optional: set[str] = set()
@@ -357,7 +364,7 @@ def execute_run(
                     description=out.name,
                     unit=out.unit,
                     categorical=out.categorical,
-                    colormap=scheme.colormap() if scheme else None,
+                    scheme=scheme,
                     block_size=plan.block_size,
                     band_tags={
                         "long_name": out.long_name,
@@ -400,7 +407,10 @@ def execute_run(
             for reader in readers.values():
                 reader.close()
             readers.clear()
-            files = [w.finish() for w in writers.values()]
+            files = []
+            for w in writers.values():
+                files.append(w.finish())
+                files.extend(w.sidecars)
             writers.clear()
         seen: set[str] = set()
         for w in caught:
