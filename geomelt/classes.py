@@ -22,6 +22,7 @@ __all__ = [
     "MELTING_MECHANISM",
     "MOHO_TEMPERATURE_FLAG",
     "SCHEMES",
+    "SECONDARY_SETTING",
     "SETTING",
     "ClassScheme",
     "MagmaType",
@@ -275,7 +276,16 @@ MOHO_TEMPERATURE_FLAG = ClassScheme(
     ),
 )
 
+SECONDARY_SETTING = ClassScheme(
+    "secondary_setting",
+    "Secondary tectonic-magmatic influence",
+    (ClassEntry(0, "none", "none", _hex("#f7f7f7"), "No second setting applies"),)
+    + SETTING.entries[1:],
+)
+"""Second-ranked setting where several apply (e.g. a ridge beneath a hotspot)."""
+
 SCHEMES: dict[str, ClassScheme] = {
-    s.name: s for s in (SETTING, MELTING_MECHANISM, MAGMA_TYPE, MOHO_TEMPERATURE_FLAG)
+    s.name: s
+    for s in (SETTING, SECONDARY_SETTING, MELTING_MECHANISM, MAGMA_TYPE, MOHO_TEMPERATURE_FLAG)
 }
 """Every class scheme by name (the ``scheme`` of categorical output layers)."""

@@ -903,3 +903,121 @@ WEDGE_MELT_COLUMN_KM = _c(
     1.0,
     100.0,
 )
+
+# --------------------------------------------------------------------------------------
+# Tectonic-magmatic setting rules (geomelt.tectonics.settings)
+# --------------------------------------------------------------------------------------
+CONTINENTAL_CRUST_MIN_THICKNESS_KM = _c(
+    "continental_crust_min_thickness_km",
+    30.0,
+    "km",
+    "Crust at least this thick makes an arc, hotspot or magma source continental; thinner "
+    "crust (ocean floor, oceanic plateaus, island arcs) counts as oceanic",
+    "common practice: intra-oceanic arc crust is ~20-35 km, average continental crust ~40 km "
+    "(Christensen & Mooney 1995, JGR 100:9761, from memory; Rudnick & Gao 2003)",
+    15.0,
+    45.0,
+)
+RIDGE_ZONE_HALF_WIDTH_KM = _c(
+    "ridge_zone_half_width_km",
+    100.0,
+    "km",
+    "Cells within this distance of a ridge are mid-ocean ridge (axis and young flanks)",
+    "common practice (about 5 Myr of crust at a 40 mm/yr full spreading rate)",
+    5.0,
+    500.0,
+)
+RIFT_ZONE_HALF_WIDTH_KM = _c(
+    "rift_zone_half_width_km",
+    100.0,
+    "km",
+    "Cells within this distance of a rift axis are continental rift",
+    "common practice (continental rift zones are tens to ~200 km wide)",
+    5.0,
+    500.0,
+)
+TRANSFORM_ZONE_HALF_WIDTH_KM = _c(
+    "transform_zone_half_width_km",
+    30.0,
+    "km",
+    "Cells within this distance of a transform fault are transform setting",
+    "common practice (transform valleys and their damage zones are a few tens of km wide)",
+    1.0,
+    200.0,
+)
+COLLISION_ZONE_HALF_WIDTH_KM = _c(
+    "collision_zone_half_width_km",
+    500.0,
+    "km",
+    "Thickened crust within this distance of a collision suture is continental collision",
+    "common practice (the Tibetan plateau extends ~1000 km from the Himalayan front)",
+    10.0,
+    2000.0,
+)
+SUBDUCTION_ZONE_MAX_DISTANCE_KM = _c(
+    "subduction_zone_max_distance_km",
+    700.0,
+    "km",
+    "Upper-plate cells farther than this from a trench are not forearc, arc or back-arc",
+    "common practice; back-arc spreading lies ~50-300 km behind arcs that stand 100-300 km from "
+    "the trench (Taylor & Martinez 2003; Dickinson 1973, from memory)",
+    100.0,
+    2000.0,
+)
+ARC_MIN_TRENCH_DISTANCE_KM = _c(
+    "arc_min_trench_distance_km",
+    100.0,
+    "km",
+    "Without a slab-depth raster: upper-plate cells closer to the trench are forearc",
+    "volcanic fronts stand >= 100 km from the trench almost everywhere (Dickinson 1973, "
+    "secondary source)",
+    20.0,
+    400.0,
+)
+ARC_MAX_TRENCH_DISTANCE_KM = _c(
+    "arc_max_trench_distance_km",
+    300.0,
+    "km",
+    "Without a slab-depth raster: upper-plate cells up to this distance from the trench are "
+    "arc, farther ones back-arc",
+    "trench to volcanic front 100-300 km (Dickinson 1973, secondary source)",
+    50.0,
+    800.0,
+)
+HOTSPOT_MIN_EXCESS_TEMPERATURE_K = _c(
+    "hotspot_min_excess_temperature_k",
+    50.0,
+    "K",
+    "Cells whose mantle is at least this much hotter than ambient are hotspot settings",
+    "common practice (a quarter of a typical +200 K plume excess; White & McKenzie 1989)",
+    1.0,
+    300.0,
+)
+MIN_MELT_THICKNESS_KM = _c(
+    "min_melt_thickness_km",
+    0.1,
+    "km",
+    "Decompression melting counts as a mechanism where the column makes at least this much melt",
+    "common practice (below ~0.1 km the melt stays trapped in the mantle)",
+    0.0,
+    5.0,
+)
+MIN_WEDGE_MELT_FRACTION = _c(
+    "min_wedge_melt_fraction",
+    0.01,
+    "1",
+    "Flux melting counts as a mechanism where the wedge melt fraction reaches this",
+    "common practice (about 1 % melt is the lowest degree that separates from peridotite)",
+    0.0,
+    0.3,
+)
+MIN_CRUSTAL_MELT_FRACTION = _c(
+    "min_crustal_melt_fraction",
+    0.05,
+    "1",
+    "Crustal heating counts as a mechanism where the crustal melt fraction reaches this",
+    "common practice: granitic melt becomes connected and mobile at several per cent "
+    "(melt connectivity thresholds, from memory)",
+    0.0,
+    0.5,
+)

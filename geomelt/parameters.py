@@ -23,6 +23,7 @@ __all__ = [
     "FluxMeltingParameters",
     "MantleMeltingParameters",
     "ParameterSet",
+    "SettingParameters",
     "ThermalParameters",
     "param",
 ]
@@ -283,3 +284,31 @@ class CrustalMeltingParameters(ParameterSet):
                     f"{', '.join(names)}; got {', '.join(f'{v:g}' for v in values)}"
                 )
                 raise ParameterError(msg)
+
+
+@dataclasses.dataclass(frozen=True)
+class SettingParameters(ParameterSet):
+    """Thresholds of the tectonic-magmatic setting, mechanism and magma-type rules.
+
+    The rules themselves are data in :mod:`geomelt.tectonics.settings`; these are
+    the numbers they compare against.
+    """
+
+    title: ClassVar[str] = "tectonic-magmatic setting"
+
+    continental_crust_min_thickness_km: float = param(C.CONTINENTAL_CRUST_MIN_THICKNESS_KM)
+    ridge_zone_half_width_km: float = param(C.RIDGE_ZONE_HALF_WIDTH_KM)
+    rift_zone_half_width_km: float = param(C.RIFT_ZONE_HALF_WIDTH_KM)
+    transform_zone_half_width_km: float = param(C.TRANSFORM_ZONE_HALF_WIDTH_KM)
+    collision_zone_half_width_km: float = param(C.COLLISION_ZONE_HALF_WIDTH_KM)
+    thick_crust_km: float = param(C.THICK_CRUST_KM)
+    subduction_zone_max_distance_km: float = param(C.SUBDUCTION_ZONE_MAX_DISTANCE_KM)
+    arc_min_trench_distance_km: float = param(C.ARC_MIN_TRENCH_DISTANCE_KM)
+    arc_max_trench_distance_km: float = param(C.ARC_MAX_TRENCH_DISTANCE_KM)
+    arc_slab_depth_km: float = param(C.ARC_SLAB_DEPTH_KM)
+    arc_window_half_width_km: float = param(C.ARC_WINDOW_HALF_WIDTH_KM)
+    mantle_potential_temperature_c: float = param(C.MANTLE_POTENTIAL_TEMPERATURE_C)
+    hotspot_min_excess_temperature_k: float = param(C.HOTSPOT_MIN_EXCESS_TEMPERATURE_K)
+    min_melt_thickness_km: float = param(C.MIN_MELT_THICKNESS_KM)
+    min_wedge_melt_fraction: float = param(C.MIN_WEDGE_MELT_FRACTION)
+    min_crustal_melt_fraction: float = param(C.MIN_CRUSTAL_MELT_FRACTION)
