@@ -995,10 +995,11 @@ HOTSPOT_MIN_EXCESS_TEMPERATURE_K = _c(
 )
 MIN_MELT_THICKNESS_KM = _c(
     "min_melt_thickness_km",
-    0.1,
+    0.5,
     "km",
     "Decompression melting counts as a mechanism where the column makes at least this much melt",
-    "common practice (below ~0.1 km the melt stays trapped in the mantle)",
+    "common practice: thinner melt columns (a few per cent of melting at most) leave little "
+    "extractable melt; the thinnest igneous crust at ultraslow ridges is a few km",
     0.0,
     5.0,
 )
@@ -1020,4 +1021,13 @@ MIN_CRUSTAL_MELT_FRACTION = _c(
     "(melt connectivity thresholds, from memory)",
     0.0,
     0.5,
+)
+BOUNDARY_REACH_KM = _c(
+    "boundary_reach_km",
+    1500.0,
+    "km",
+    "Plate boundaries farther than this from a cell count as absent (distance nodata)",
+    "common practice (wider than any subduction-zone upper plate or collision plateau)",
+    100.0,
+    5000.0,
 )

@@ -101,3 +101,5 @@ class OutputLayer:
     """Name of the :mod:`geomelt.classes` scheme of a categorical output."""
     flag_message: str | None = None
     """For 0/1 flag outputs: warning reported with the count of flagged cells."""
+    written: bool = True
+    """False for arrays other algorithms read but no GeoTIFF is written for."""

@@ -19,6 +19,7 @@ from geomelt.constants import Constant
 from geomelt.errors import ParameterError
 
 __all__ = [
+    "BoundaryParameters",
     "CrustalMeltingParameters",
     "FluxMeltingParameters",
     "MantleMeltingParameters",
@@ -312,3 +313,32 @@ class SettingParameters(ParameterSet):
     min_melt_thickness_km: float = param(C.MIN_MELT_THICKNESS_KM)
     min_wedge_melt_fraction: float = param(C.MIN_WEDGE_MELT_FRACTION)
     min_crustal_melt_fraction: float = param(C.MIN_CRUSTAL_MELT_FRACTION)
+
+
+@dataclasses.dataclass(frozen=True)
+class BoundaryParameters(ParameterSet):
+    """Parameters of the per-cell plate-boundary fields (distances, sides, rates)."""
+
+    title: ClassVar[str] = "plate-boundary proximity"
+
+    boundary_reach_km: float = param(C.BOUNDARY_REACH_KM)
+
+
+# --------------------------------------------------------------------------------------
+# Melt productivity and screening (geomelt.physics.productivity, geomelt.physics.screening)
+# --------------------------------------------------------------------------------------
+def _check_ramp(pset: ParameterSet, zero_name: str, full_name: str) -> None:
+    """Raise unless the two breakpoints of a membership ramp differ."""
+    if getattr(pset, zero_name) == getattr(pset, full_name):
+        msg = (
+            f"parameters {zero_name!r} and {full_name!r} must differ (both "
+            f"{getattr(pset, zero_name):g}): a membership ramp needs two breakpoints"
+        )
+        raise ParameterError(msg)
+
+
+def _check_weights(pset: ParameterSet, names: tuple[str, ...], what: str) -> None:
+    """Raise if every weight of one score is 0."""
+    if all(getattr(pset, n) == 0.0 for n in names):
+        msg = f"the {what} weights ({', '.join(names)}) must not all be 0"
+        raise ParameterError(msg)

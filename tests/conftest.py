@@ -48,6 +48,17 @@ def write_raster(path, array, *, crs=LAEA, transform=None, nodata=np.nan, dtype=
 @pytest.fixture
 def tiny_region(tmp_path):
     """A 48 x 64 region: crust thickening and heat flow falling from west to east."""
+    return make_tiny_region(tmp_path)
+
+
+@pytest.fixture(scope="module")
+def tiny_region_module(tmp_path_factory):
+    """The tiny region, shared by the tests of one module (read only)."""
+    return make_tiny_region(tmp_path_factory.mktemp("tiny"))
+
+
+def make_tiny_region(tmp_path):
+    """Write the tiny region's layers and configuration under ``tmp_path``."""
     rows, cols = 48, 64
     x = np.linspace(0.0, 1.0, cols)[None, :].repeat(rows, axis=0)
     crust = (7.0 + 38.0 * x).astype("float32")  # 7 km (oceanic) to 45 km

@@ -9,7 +9,7 @@ import math
 import pytest
 
 from geomelt.algorithms import algorithm_chain, registered_algorithms
-from geomelt.layers import INPUT_LAYERS
+from geomelt.layers import GRID_LAYERS, INPUT_LAYERS
 
 ALGORITHMS = list(registered_algorithms().values())
 UNIT_SUFFIX = {
@@ -26,8 +26,9 @@ UNIT_SUFFIX = {
     "m2 s-1": "_m2_s",
     "kg m-3": "_kg_m3",
     "J kg-1 K-1": "_j_kg_k",
+    "mm yr-1": "_mm_yr",
 }
-DIMENSIONLESS = ("", "1")
+DIMENSIONLESS = ("", "1", "class")
 
 
 @pytest.mark.parametrize("alg", ALGORITHMS, ids=lambda a: a.id)
@@ -62,12 +63,15 @@ def test_describe_is_valid_json_with_units(alg):
         schema = again["inputs"][f.name]["schema"]
         assert "default" in schema
     for out in alg.output_layers():
-        assert again["outputs"][out.name]["schema"]["x-unit"] == out.unit
+        if out.written:
+            assert again["outputs"][out.name]["schema"]["x-unit"] == out.unit
+        else:
+            assert out.name not in again["outputs"], "unwritten arrays are not process outputs"
 
 
 def test_chain_orders_producers_first():
     chain = algorithm_chain()
-    produced = set(INPUT_LAYERS)
+    produced = set(INPUT_LAYERS) | set(GRID_LAYERS)
     for alg in chain:
         for name in alg.inputs:
             assert name in produced, f"{alg.id} runs before the producer of {name}"

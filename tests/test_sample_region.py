@@ -106,3 +106,91 @@ def test_hotspots_raise_potential_temperature_and_melt_more(demo_out):
 def test_collision_belt_is_flagged_not_trusted(demo_out):
     for f in kinds("continental_collision"):
         assert value_at(demo_out, "moho_temperature_flag", f) == 1, f["name"]
+
+
+# Expected class per feature kind of the invented region (design.md section 4.5 classes;
+# mechanism and magma-type expectations follow the cited rules in geomelt.tectonics.settings).
+EXPECTED_SETTING = {
+    "mid_ocean_ridge": "MID_OCEAN_RIDGE",
+    "transform": "TRANSFORM",
+    "ocean_basin": "STABLE_INTERIOR",
+    "oceanic_hotspot": "OCEANIC_HOTSPOT",
+    "forearc": "FOREARC",
+    "oceanic_arc": "OCEANIC_ARC",
+    "back_arc": "BACK_ARC",
+    "continental_arc": "CONTINENTAL_ARC",
+    "continental_collision": "CONTINENTAL_COLLISION",
+    "continental_rift": "CONTINENTAL_RIFT",
+    "continental_hotspot": "CONTINENTAL_HOTSPOT",
+    "stable_interior": "STABLE_INTERIOR",
+}
+EXPECTED_MAGMA = {
+    "mid_ocean_ridge": "MAFIC",
+    "back_arc": "MAFIC",
+    "oceanic_hotspot": "MAFIC",
+    "continental_arc": "INTERMEDIATE",
+    "continental_collision": "FELSIC",
+    "continental_rift": "BIMODAL",
+    "continental_hotspot": "BIMODAL",
+    "forearc": "NONE",
+}
+
+
+@pytest.mark.parametrize("feature_id", sorted(FEATURES), ids=lambda i: FEATURES[i]["kind"])
+def test_each_feature_lands_in_its_setting(demo_out, feature_id):
+    from geomelt.classes import MagmaType, Mechanism, Setting
+
+    f = FEATURES[feature_id]
+    setting = Setting(int(value_at(demo_out, "setting", f)))
+    assert setting.name == EXPECTED_SETTING[f["kind"]], f["name"]
+    magma = MagmaType(int(value_at(demo_out, "magma_type", f)))
+    if f["kind"] in EXPECTED_MAGMA:
+        assert magma.name == EXPECTED_MAGMA[f["kind"]], f["name"]
+    mech = int(value_at(demo_out, "melting_mechanism", f))
+    if f["kind"] in ("oceanic_arc", "continental_arc"):
+        assert mech & Mechanism.FLUX, f["name"]
+    if f["kind"] in ("mid_ocean_ridge", "oceanic_hotspot", "continental_hotspot"):
+        assert mech & Mechanism.DECOMPRESSION, f["name"]
+    if f["kind"] == "continental_collision":
+        assert mech == Mechanism.CRUSTAL_HEATING, f["name"]
+
+
+def test_class_rasters_carry_legends(demo_out):
+    import xml.etree.ElementTree as ET
+
+    from geomelt.classes import SETTING
+
+    with rasterio.open(demo_out / "setting.tif") as ds:
+        assert ds.dtypes[0] == "uint8" and ds.nodata == 255
+        cmap = ds.colormap(1)
+        assert cmap[2][:3] == SETTING.by_code()[2].rgba[:3]
+    aux = ET.parse(demo_out / "setting.tif.aux.xml").getroot()
+    names = [c.text or "" for c in aux.iter("Category")]
+    assert names[2] == "mid-ocean ridge"
+    qml = ET.parse(demo_out / "setting.qml").getroot()
+    assert len(list(qml.iter("paletteEntry"))) == len(SETTING.entries)  # all 11 present here
+    assert (demo_out / "setting.sld").exists()
+
+
+def test_settings_polygons_and_boundaries_in_the_geopackage(demo_out):
+    import pyogrio
+
+    layers = {name for name, _ in pyogrio.list_layers(demo_out / "results.gpkg")}
+    assert {"settings", "plate_boundaries", "run_metadata"} <= layers
+    polys = pyogrio.read_dataframe(demo_out / "results.gpkg", layer="settings")
+    assert set(polys["setting"]) >= {"mid-ocean ridge", "forearc", "continental arc"}
+    assert (polys["area_km2"] > 0).all()
+    # Polygon areas add up to the region (4000 km x 3000 km equal-area grid) within 1 %.
+    assert polys["area_km2"].sum() == pytest.approx(4000.0 * 3000.0, rel=0.01)
+    assert {
+        "dominant_melting_mechanism_label",
+        "dominant_magma_type_label",
+        "mean_melt_thickness_km",
+    } <= set(polys.columns)
+    bounds = pyogrio.read_dataframe(demo_out / "results.gpkg", layer="plate_boundaries")
+    assert (bounds["length_km"] > 0).all()
+
+
+def test_quicklook_maps_written(demo_out):
+    pngs = {p.stem for p in (demo_out / "quicklook").glob("*.png")}
+    assert {"setting", "melting_mechanism", "magma_type", "melt_thickness_km"} <= pngs

@@ -12,6 +12,7 @@ from importlib.metadata import entry_points
 
 from geomelt.algorithms.base import Algorithm
 from geomelt.algorithms.melting import CRUSTAL_MELTING, DECOMPRESSION_MELTING, FLUX_MELTING
+from geomelt.algorithms.tectonics import BOUNDARY_PROXIMITY, TECTONIC_SETTING
 from geomelt.algorithms.thermal import THERMAL_STATE
 from geomelt.errors import GeomeltError
 from geomelt.layers import GRID_LAYERS, INPUT_LAYERS
@@ -25,6 +26,8 @@ _BUILTIN: tuple[Algorithm, ...] = (
     DECOMPRESSION_MELTING,
     FLUX_MELTING,
     CRUSTAL_MELTING,
+    BOUNDARY_PROXIMITY,
+    TECTONIC_SETTING,
 )
 
 

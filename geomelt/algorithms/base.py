@@ -143,6 +143,8 @@ class Algorithm:
             }
         outputs = {}
         for out in self.output_layers():
+            if not out.written:
+                continue
             schema = {
                 "type": "string",
                 "format": "uri",

@@ -138,6 +138,9 @@ def column_cmd(
             "slab_depth_km": slab_depth_km if slab_depth_km is not None else math.nan,
         }
         algorithms, parameters = resolve_chain(RunConfig(parameters=overrides))
+        # No place: boundary distances are unknown (nodata), so the setting rules see no
+        # boundary nearby.
+        extra = {"cell_lon_deg": math.nan, "cell_lat_deg": math.nan}
     probe = probe_column(values, algorithms, parameters, extra)
     probe.location = location
     if as_json:

@@ -12,6 +12,7 @@ import geomelt
 from geomelt.cli.options import handle_errors, parse_assignments, verbosity
 from geomelt.io.config import load_config, parse_value
 from geomelt.pipeline import RunResult, execute_run, plan_run
+from geomelt.pipeline.engines import ENGINES
 
 
 def _fmt(value) -> str:
@@ -84,6 +85,26 @@ def print_summary(result: RunResult) -> None:
 )
 @click.option("--block-size", type=int, default=None, help="Window size in cells (multiple of 16).")
 @click.option(
+    "--engine",
+    type=click.Choice(ENGINES),
+    default="threads",
+    show_default=True,
+    help="Where windows are computed: a thread pool here, this thread only, or a dask cluster.",
+)
+@click.option(
+    "-w",
+    "--workers",
+    type=click.IntRange(min=0),
+    default=0,
+    help="Worker threads (or local dask processes); 0 = one per core.",
+)
+@click.option(
+    "--scheduler",
+    metavar="ADDRESS",
+    default=None,
+    help="dask scheduler address (tcp://host:8786), or 'local'; implies --engine dask.",
+)
+@click.option(
     "--progress/--no-progress",
     default=None,
     help="Progress bar on stderr (default: only when stderr is a terminal).",
@@ -97,7 +118,18 @@ def print_summary(result: RunResult) -> None:
 @verbosity
 @handle_errors
 def run_cmd(
-    config, out_dir, overwrite, inputs, params, algorithm_ids, block_size, progress, dry_run
+    config,
+    out_dir,
+    overwrite,
+    inputs,
+    params,
+    algorithm_ids,
+    block_size,
+    engine,
+    workers,
+    scheduler,
+    progress,
+    dry_run,
 ):
     """Compute the maps for the region described by CONFIG (a TOML file).
 
@@ -115,5 +147,15 @@ def run_cmd(
         click.echo(json.dumps(plan.as_dict(), indent=2, allow_nan=False))
         return
     show = sys.stderr.isatty() if progress is None else progress
-    result = execute_run(plan, out_dir, overwrite=overwrite, progress=show)
+    if scheduler:
+        engine = "dask"
+    result = execute_run(
+        plan,
+        out_dir,
+        overwrite=overwrite,
+        progress=show,
+        engine=engine,
+        workers=workers,
+        scheduler=scheduler,
+    )
     print_summary(result)

@@ -34,6 +34,7 @@ __all__ = [
     "crs_label",
     "open_raster_checked",
     "read_grid",
+    "read_reduced",
     "sample_inputs_at",
 ]
 
@@ -364,3 +365,24 @@ def sample_inputs_at(grid: RasterGrid, raster_inputs: dict, x: float, y: float, 
         "col": int(col),
     }
     return values, location
+
+
+def read_reduced(path, max_cells: int = 1500, categorical: bool = False):
+    """Read band 1 reduced so neither side exceeds ``max_cells`` (overviews are used).
+
+    Returns
+    -------
+    array : ndarray
+        Reduced band (nodata kept as stored; float NaN stays NaN).
+    transform : affine.Affine
+        Transform of the reduced array.
+    factor : int
+        Reduction factor (1: full resolution).
+    """
+    with rasterio.open(path) as ds:
+        factor = max(1, math.ceil(max(ds.width, ds.height) / max_cells))
+        shape = (max(1, ds.height // factor), max(1, ds.width // factor))
+        method = Resampling.mode if categorical else Resampling.average
+        arr = ds.read(1, out_shape=shape, resampling=method)
+        transform = ds.transform * Affine.scale(ds.width / shape[1], ds.height / shape[0])
+    return arr, transform, factor

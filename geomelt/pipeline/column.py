@@ -249,4 +249,15 @@ def _decisions(values, r, parameters) -> list[str]:
                 "flag: this steady-state Moho temperature is hotter than thickened orogenic "
                 "crust shows; the crustal melt fraction is an upper bound"
             )
+    if "setting" in r:
+        from geomelt.classes import MAGMA_TYPE, MELTING_MECHANISM, SECONDARY_SETTING, SETTING
+
+        setting = SETTING.labels().get(int(r["setting"]), "nodata")
+        line = f"SETTING: {setting}"
+        second = int(r.get("secondary_setting", 0))
+        if second not in (0, 255):
+            line += f" (secondary influence: {SECONDARY_SETTING.labels()[second]})"
+        mech = MELTING_MECHANISM.labels().get(int(r["melting_mechanism"]), "nodata")
+        magma = MAGMA_TYPE.labels().get(int(r["magma_type"]), "nodata")
+        out.append(f"{line}; mechanism: {mech}; magma type: {magma}")
     return out

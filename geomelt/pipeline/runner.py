@@ -43,6 +43,9 @@ from geomelt.io.rasters import AlignedRaster, RasterGrid, read_grid
 from geomelt.io.vectors import read_hotspots, read_plate_boundaries
 from geomelt.layers import GRID_LAYERS, INPUT_LAYERS, OutputLayer
 from geomelt.parameters import ParameterSet
+from geomelt.pipeline import products
+from geomelt.pipeline.engines import iterate_windows
+from geomelt.tectonics.boundaries import BoundarySet
 from geomelt.tectonics.hotspots import HotspotSet
 
 __all__ = ["OutputStats", "RunPlan", "RunResult", "execute_run", "plan_run", "resolve_chain"]
@@ -111,6 +114,8 @@ class RunPlan:
     """Vector inputs prepared for the algorithms (e.g. ``hotspots`` as a HotspotSet)."""
     grid_layers: set[str] = field(default_factory=set)
     """Grid-derived layers (cell longitude/latitude) some algorithm reads."""
+    frames: dict[str, Any] = field(default_factory=dict)
+    """Vector inputs as read (GeoDataFrames), for the vector products and maps."""
 
     def as_dict(self) -> dict[str, Any]:
         """JSON-ready summary of the plan."""
@@ -124,7 +129,7 @@ class RunPlan:
             },
             "algorithms": [a.id for a in self.algorithms],
             "inputs": {k: str(v) for k, v in {**self.raster_inputs, **self.vector_inputs}.items()},
-            "outputs": [f"{o.name}.tif" for _, o in self.outputs] + [RESULTS_GPKG],
+            "outputs": [f"{o.name}.tif" for _, o in self.outputs if o.written] + [RESULTS_GPKG],
             "block_size": self.block_size,
             "notes": self.notes,
         }
@@ -217,12 +222,15 @@ def plan_run(config: RunConfig, algorithm_ids: list[str] | None = None) -> RunPl
                 f"with {INPUT_LAYERS[name].resampling} resampling"
             )
     vectors: dict[str, Any] = {}
+    frames: dict[str, Any] = {}
     for name, path in sorted(vector_inputs.items()):
         if name == "plate_boundaries":
             gdf = read_plate_boundaries(path)
+            vectors[name] = BoundarySet.from_frame(gdf)
         else:
             gdf = read_hotspots(path)
             vectors[name] = HotspotSet.from_frame(gdf)
+        frames[name] = gdf
         notes.append(f"'{name}': {len(gdf)} feature(s) read and checked")
     grid_layers = {
         n for alg in algorithms for n in alg.inputs + alg.optional_inputs if n in GRID_LAYERS
@@ -250,6 +258,7 @@ def plan_run(config: RunConfig, algorithm_ids: list[str] | None = None) -> RunPl
         notes=notes + [f"{len(input_paths)} input file(s); {len(outputs)} raster output(s)"],
         vectors=vectors,
         grid_layers=grid_layers,
+        frames=frames,
     )
 
 
@@ -266,7 +275,8 @@ def _prepare_out_dir(out_dir: Path, overwrite: bool, plan: RunPlan) -> Path:
     if out_dir.exists() and not out_dir.is_dir():
         msg = f"output location {str(out_dir)!r} exists and is not a folder; choose a folder."
         raise OutputExistsError(msg)
-    finals = {out_dir / f"{o.name}.tif" for _, o in plan.outputs} | {out_dir / RESULTS_GPKG}
+    finals = {out_dir / f"{o.name}.tif" for _, o in plan.outputs if o.written}
+    finals.add(out_dir / RESULTS_GPKG)
     for name, path in plan.config.inputs.items():
         if path.resolve() in finals:
             msg = (
@@ -294,15 +304,6 @@ def _prepare_out_dir(out_dir: Path, overwrite: bool, plan: RunPlan) -> Path:
     return staging
 
 
-def _check_plausible(name: str, arr: np.ndarray, counts: dict[str, int]) -> None:
-    lo_hi = INPUT_LAYERS[name].plausible_range
-    if lo_hi is None:
-        return
-    finite = np.isfinite(arr)
-    bad = finite & ((arr < lo_hi[0]) | (arr > lo_hi[1]))
-    counts[name] = counts.get(name, 0) + int(bad.sum())
-
-
 def execute_run(
     plan: RunPlan,
     out_dir,
@@ -310,6 +311,9 @@ def execute_run(
     overwrite: bool = False,
     progress: bool = False,
     on_window: Callable[[int, int], None] | None = None,
+    engine: str = "threads",
+    workers: int = 0,
+    scheduler: str | None = None,
 ) -> RunResult:
     """Run the plan and write every output into ``out_dir``.
 
@@ -326,6 +330,13 @@ def execute_run(
         Show a progress bar on stderr.
     on_window : callable, optional
         Called as ``on_window(done, total)`` after each window.
+    engine : {"threads", "serial", "dask"}
+        Where windows are computed (see :mod:`geomelt.pipeline.engines`); the
+        pixels are the same with every engine.
+    workers : int
+        Worker threads or local dask processes; 0 means one per core.
+    scheduler : str, optional
+        dask scheduler address, or ``"local"`` for a local cluster.
     """
     t0 = time.perf_counter()
     out_dir = Path(out_dir).expanduser().resolve()
@@ -336,7 +347,8 @@ def execute_run(
         for name, path in sorted(plan.config.inputs.items())
     }
     run_warnings: list[str] = []
-    stats = {o.name: OutputStats(o.name, o.unit) for _, o in plan.outputs}
+    written = [(alg, o) for alg, o in plan.outputs if o.written]
+    stats = {o.name: OutputStats(o.name, o.unit) for _, o in written}
     writers: dict[str, GeoTiffWriter] = {}
     readers: dict[str, AlignedRaster] = {}
     implausible: dict[str, int] = {}
@@ -353,7 +365,7 @@ def execute_run(
                         f"{100 * readers[name].overlap_fraction:.0f} % of the reference grid; "
                         "cells outside it are nodata"
                     )
-            for alg, out in plan.outputs:
+            for alg, out in written:
                 scheme = SCHEMES[out.scheme] if out.scheme else None
                 writers[out.name] = GeoTiffWriter(
                     out_dir / f"{out.name}.tif",
@@ -380,20 +392,17 @@ def execute_run(
                         "caution": geomelt.CAUTION,
                     },
                 )
+            for reader in readers.values():
+                reader.close()
+            readers.clear()
             windows = list(grid.windows(plan.block_size))
             bar = _progress_bar(len(windows), progress)
-            for i, window in enumerate(windows):
-                arrays: dict[str, Any] = dict(plan.vectors)
-                for name, reader in readers.items():
-                    arrays[name] = reader.read(window)
-                    _check_plausible(name, arrays[name], implausible)
-                if plan.grid_layers:
-                    arrays["cell_lon_deg"], arrays["cell_lat_deg"] = grid.lonlat(window)
-                for alg in plan.algorithms:
-                    args = {n: arrays[n] for n in alg.inputs}
-                    args.update({n: arrays[n] for n in alg.optional_inputs if n in arrays})
-                    arrays.update(alg.compute(args, plan.parameters[alg.id]))
-                for _, out in plan.outputs:
+            results = iterate_windows(plan, windows, engine, workers, scheduler)
+            for i, result in enumerate(results):
+                arrays, window = result.arrays, result.window
+                for name, n in result.implausible.items():
+                    implausible[name] = implausible.get(name, 0) + n
+                for _, out in written:
                     writers[out.name].write(arrays[out.name], window)
                     stats[out.name].update(arrays[out.name], out.nodata)
                     if out.flag_message:
@@ -404,9 +413,6 @@ def execute_run(
                 if on_window is not None:
                     on_window(i + 1, len(windows))
             bar.close()
-            for reader in readers.values():
-                reader.close()
-            readers.clear()
             files = []
             for w in writers.values():
                 files.append(w.finish())
@@ -418,7 +424,7 @@ def execute_run(
             if text not in seen:
                 seen.add(text)
                 run_warnings.append(text)
-        for _, out in plan.outputs:
+        for _, out in written:
             if flagged.get(out.name):
                 run_warnings.append(f"{flagged[out.name]} {out.flag_message}")
         for name, n in implausible.items():
@@ -429,7 +435,19 @@ def execute_run(
                     f"{lo:g}-{hi:g} {INPUT_LAYERS[name].unit}; check its units"
                 )
         gpkg_stage = staging / RESULTS_GPKG
+        if (out_dir / "setting.tif").exists() and "setting" in stats:
+            n = products.write_setting_polygons(gpkg_stage, out_dir)
+            log.info("settings: %d polygon(s)", n)
+        if "plate_boundaries" in plan.frames:
+            products.write_boundaries_layer(gpkg_stage, plan.frames["plate_boundaries"])
         write_run_metadata(gpkg_stage, _metadata_records(plan, input_meta, stats, run_warnings))
+        pairs = products.write_quicklooks(
+            staging,
+            out_dir,
+            boundaries=plan.frames.get("plate_boundaries"),
+            hotspots=plan.frames.get("hotspots"),
+        )
+        files.extend(products.move_into_place(pairs))
         final_gpkg = out_dir / RESULTS_GPKG
         os.replace(gpkg_stage, final_gpkg)
         files.append(final_gpkg)
@@ -463,15 +481,17 @@ def _progress_bar(total: int, enabled: bool):
 def _replace_manifest(out_dir: Path, files: list[Path]) -> None:
     """Record what this run wrote; remove outputs of an earlier run that this run did not write."""
     manifest = out_dir / MANIFEST
-    names = sorted(p.name for p in files)
+    names = sorted(p.relative_to(out_dir).as_posix() for p in files)
     if manifest.exists():
         try:
             old = json.loads(manifest.read_text())["files"]
         except (ValueError, KeyError, TypeError):
             old = []
         for stale in set(old) - set(names):
-            if "/" not in stale and "\\" not in stale:
-                (out_dir / stale).unlink(missing_ok=True)
+            target = (out_dir / stale).resolve()
+            # Only files inside the output folder that an earlier run listed.
+            if isinstance(stale, str) and out_dir in target.parents:
+                target.unlink(missing_ok=True)
     tmp = out_dir / (MANIFEST + ".tmp")
     tmp.write_text(json.dumps({"producer": "geomelt", "files": names}, indent=1))
     os.replace(tmp, manifest)

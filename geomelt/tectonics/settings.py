@@ -277,7 +277,7 @@ MAGMA_RULES: tuple[Rule, ...] = (
     Rule(MagmaType.NONE, ("no_melt",), "no melting predicted"),
     Rule(
         MagmaType.BIMODAL,
-        ("mantle_melt", "continental_crust", "extension_or_plume"),
+        ("mantle_melt", "extension_or_plume"),
         "continental rifts and hotspots erupt alkali basalt with rhyolite and few "
         "intermediate rocks (common practice; science.md section 8, from memory)",
     ),

@@ -1,0 +1,253 @@
+"""Products made from finished rasters: setting polygons, echoed boundaries, quick-look maps.
+
+They run after the window loop, on rasters read reduced (overviews) so their
+memory does not grow with the grid: polygons and maps are regional overviews,
+the GeoTIFFs keep full resolution.
+"""
+
+from __future__ import annotations
+
+import logging
+import os
+from pathlib import Path
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import pyogrio
+from pyproj import Geod
+
+import geomelt
+from geomelt.classes import MAGMA_TYPE, MELTING_MECHANISM, SCHEMES, SETTING
+from geomelt.io.geopackage import GPKG_DATASET_OPTIONS
+from geomelt.io.polygons import class_polygons, zonal_summary
+from geomelt.io.quicklook import class_map_png, continuous_map_png
+from geomelt.io.rasters import read_reduced
+from geomelt.io.styles import LayerStyle, style_class_layer, write_layer_styles
+
+__all__ = [
+    "POLYGON_MAX_CELLS",
+    "QUICKLOOK_CONTINUOUS",
+    "write_boundaries_layer",
+    "write_quicklooks",
+    "write_setting_polygons",
+]
+
+log = logging.getLogger(__name__)
+
+POLYGON_MAX_CELLS = 1500
+"""Setting polygons are traced on the setting raster reduced to at most this many cells a side."""
+POLYGON_MIN_CELLS = 8
+"""Regions smaller than this many (reduced) cells are merged into a neighbour (speckle removal)."""
+POLYGON_SIMPLIFY_CELLS = 0.5
+"""Coverage simplification tolerance, in (reduced) cells."""
+
+QUICKLOOK_CONTINUOUS = (
+    ("lab_depth_km", "Thermal lithosphere base", "km", "viridis_r"),
+    ("moho_temperature_c", "Moho temperature", "degC", "inferno"),
+    ("melt_thickness_km", "Decompression melt column", "km", "magma"),
+    ("wedge_melt_fraction", "Flux melt fraction of the mantle wedge", "1", "magma"),
+    ("crustal_melt_fraction", "Crustal melt fraction", "1", "magma"),
+)
+"""Continuous outputs that get a quick-look map: (layer, title, unit, colour map)."""
+
+_GEOD = Geod(ellps="WGS84")
+
+
+def write_setting_polygons(gpkg_path: Path, out_dir: Path) -> int:
+    """Vectorise ``setting.tif`` into the ``settings`` layer of ``gpkg_path``.
+
+    Each polygon carries its class, area in km2 (equal-area), the dominant
+    melting mechanism and magma type, and the mean melt thickness. Returns the
+    number of polygons.
+    """
+    setting, transform, factor = read_reduced(out_dir / "setting.tif", POLYGON_MAX_CELLS, True)
+    import rasterio
+
+    with rasterio.open(out_dir / "setting.tif") as ds:
+        crs = ds.crs
+        cell = abs(ds.transform.a) * factor
+    polys = class_polygons(
+        setting,
+        transform,
+        crs,
+        SETTING,
+        sieve_cells=POLYGON_MIN_CELLS,
+        simplify_tolerance=POLYGON_SIMPLIFY_CELLS * cell,
+    )
+    rasters = {
+        "melting_mechanism": read_reduced(
+            out_dir / "melting_mechanism.tif", POLYGON_MAX_CELLS, True
+        )[0],
+        "magma_type": read_reduced(out_dir / "magma_type.tif", POLYGON_MAX_CELLS, True)[0],
+        "melt_thickness_km": read_reduced(out_dir / "melt_thickness_km.tif", POLYGON_MAX_CELLS)[0],
+    }
+    polys = zonal_summary(polys, rasters, transform)
+    for name, scheme in (("melting_mechanism", MELTING_MECHANISM), ("magma_type", MAGMA_TYPE)):
+        labels = scheme.labels()
+        polys[f"dominant_{name}_label"] = [
+            labels.get(int(c), "nodata") for c in polys[f"dominant_{name}"]
+        ]
+    polys = polys.rename(columns={"class_code": "setting_code", "class_label": "setting"})
+    polys = polys.drop(columns=["class_key"], errors="ignore")
+    polys = polys.sort_values("area_km2", ascending=False).reset_index(drop=True)
+    polys.insert(0, "polygon_id", np.arange(1, len(polys) + 1, dtype=np.int32))
+    polys.to_file(
+        gpkg_path,
+        layer="settings",
+        driver="GPKG",
+        engine="pyogrio",
+        dataset_options=GPKG_DATASET_OPTIONS,
+        layer_options={
+            "DESCRIPTION": "Tectonic-magmatic setting polygons (screening estimate)",
+            "IDENTIFIER": "settings",
+            "SPATIAL_INDEX": "YES",
+        },
+    )
+    style_class_layer(gpkg_path, "settings", SETTING, field="setting_code")
+    return len(polys)
+
+
+def write_boundaries_layer(gpkg_path: Path, boundaries: gpd.GeoDataFrame) -> int:
+    """Echo the plate boundaries with derived attributes (geodesic length in km)."""
+    frame = boundaries.copy()
+    if len(frame):
+        lonlat = frame.to_crs("EPSG:4326")
+        frame["length_km"] = [
+            _GEOD.geometry_length(g) / 1000.0 if g is not None and not g.is_empty else 0.0
+            for g in lonlat.geometry
+        ]
+    else:
+        frame["length_km"] = pd.Series(dtype=float)
+    frame.insert(0, "boundary_id", np.arange(1, len(frame) + 1, dtype=np.int32))
+    pyogrio.write_dataframe(
+        frame,
+        gpkg_path,
+        layer="plate_boundaries",
+        driver="GPKG",
+        dataset_options=GPKG_DATASET_OPTIONS,
+        layer_options={
+            "DESCRIPTION": "Input plate boundaries with derived attributes",
+            "IDENTIFIER": "plate_boundaries",
+        },
+    )
+    if len(frame):
+        qml, sld = _boundary_styles()
+        write_layer_styles(
+            gpkg_path,
+            [LayerStyle("plate_boundaries", "geomelt boundary types", qml, sld)],
+        )
+    return len(frame)
+
+
+_BOUNDARY_COLOURS = {
+    "ridge": "#1f5fa8",
+    "rift": "#2e9e8f",
+    "subduction": "#a3361f",
+    "collision": "#5c3d2e",
+    "transform": "#8fb3d9",
+}
+
+
+def _boundary_styles() -> tuple[str, str]:
+    """Categorised line styles (QML for QGIS, SLD 1.0) by boundary_type."""
+    import xml.etree.ElementTree as ET
+
+    q = ET.Element("qgis", version="3.22.0", styleCategories="Symbology")
+    r = ET.SubElement(q, "renderer-v2", type="categorizedSymbol", attr="boundary_type")
+    cats = ET.SubElement(r, "categories")
+    syms = ET.SubElement(r, "symbols")
+    for i, (name, colour) in enumerate(_BOUNDARY_COLOURS.items()):
+        ET.SubElement(cats, "category", value=name, label=name, symbol=str(i), render="true")
+        s = ET.SubElement(syms, "symbol", type="line", name=str(i), alpha="1")
+        layer = ET.SubElement(s, "layer", {"class": "SimpleLine"})
+        rgb = ",".join(str(int(colour[k : k + 2], 16)) for k in (1, 3, 5))
+        for key, value in (("line_color", rgb + ",255"), ("line_width", "0.8")):
+            ET.SubElement(layer, "prop", k=key, v=value)
+    qml = ET.tostring(q, encoding="unicode")
+    ns = "http://www.opengis.net/sld"
+    ogc = "http://www.opengis.net/ogc"
+    sld = ET.Element(f"{{{ns}}}StyledLayerDescriptor", version="1.0.0", attrib={})
+    nl = ET.SubElement(sld, f"{{{ns}}}NamedLayer")
+    ET.SubElement(nl, f"{{{ns}}}Name").text = "plate_boundaries"
+    us = ET.SubElement(nl, f"{{{ns}}}UserStyle")
+    fts = ET.SubElement(us, f"{{{ns}}}FeatureTypeStyle")
+    for name, colour in _BOUNDARY_COLOURS.items():
+        rule = ET.SubElement(fts, f"{{{ns}}}Rule")
+        ET.SubElement(rule, f"{{{ns}}}Name").text = name
+        flt = ET.SubElement(rule, f"{{{ogc}}}Filter")
+        eq = ET.SubElement(flt, f"{{{ogc}}}PropertyIsEqualTo")
+        ET.SubElement(eq, f"{{{ogc}}}PropertyName").text = "boundary_type"
+        ET.SubElement(eq, f"{{{ogc}}}Literal").text = name
+        ls = ET.SubElement(rule, f"{{{ns}}}LineSymbolizer")
+        st = ET.SubElement(ls, f"{{{ns}}}Stroke")
+        ET.SubElement(st, f"{{{ns}}}CssParameter", name="stroke").text = colour
+        ET.SubElement(st, f"{{{ns}}}CssParameter", name="stroke-width").text = "2"
+    return qml, ET.tostring(sld, encoding="unicode")
+
+
+def write_quicklooks(
+    staging: Path, out_dir: Path, boundaries=None, hotspots=None
+) -> list[tuple[Path, Path]]:
+    """PNG quick-looks of the class maps and key continuous maps.
+
+    Written into ``staging/quicklook``; returns (staged, final) path pairs for
+    the caller to move into ``out_dir/quicklook``.
+    """
+    import rasterio
+
+    qdir = staging / "quicklook"
+    qdir.mkdir(exist_ok=True)
+    pairs = []
+    footnote = geomelt.CAUTION
+    for name in ("setting", "melting_mechanism", "magma_type"):
+        tif = out_dir / f"{name}.tif"
+        if not tif.exists():
+            continue
+        arr, tr, _ = read_reduced(tif, categorical=True)
+        with rasterio.open(tif) as ds:
+            crs = ds.crs
+        scheme = SCHEMES[name]
+        class_map_png(
+            qdir / f"{name}.png",
+            arr,
+            tr,
+            crs,
+            scheme,
+            scheme.title,
+            boundaries=boundaries,
+            hotspots=hotspots,
+            footnote=footnote,
+        )
+        pairs.append((qdir / f"{name}.png", out_dir / "quicklook" / f"{name}.png"))
+    for name, title, unit, cmap in QUICKLOOK_CONTINUOUS:
+        tif = out_dir / f"{name}.tif"
+        if not tif.exists():
+            continue
+        arr, tr, _ = read_reduced(tif)
+        with rasterio.open(tif) as ds:
+            crs = ds.crs
+        continuous_map_png(
+            qdir / f"{name}.png",
+            arr,
+            tr,
+            crs,
+            title,
+            unit,
+            cmap=cmap,
+            boundaries=boundaries,
+            hotspots=hotspots,
+            footnote=footnote,
+        )
+        pairs.append((qdir / f"{name}.png", out_dir / "quicklook" / f"{name}.png"))
+    return pairs
+
+
+def move_into_place(pairs: list[tuple[Path, Path]]) -> list[Path]:
+    """Move staged files to their final names (creating folders)."""
+    done = []
+    for staged, final in pairs:
+        final.parent.mkdir(parents=True, exist_ok=True)
+        os.replace(staged, final)
+        done.append(final)
+    return done
