@@ -1014,11 +1014,11 @@ MIN_WEDGE_MELT_FRACTION = _c(
 )
 MIN_CRUSTAL_MELT_FRACTION = _c(
     "min_crustal_melt_fraction",
-    0.05,
+    0.1,
     "1",
     "Crustal heating counts as a mechanism where the crustal melt fraction reaches this",
-    "common practice: granitic melt becomes connected and mobile at several per cent "
-    "(melt connectivity thresholds, from memory)",
+    "melt percolation threshold ~8 % in felsic crust (Vigneresse, Barbey & Cuney 1996, "
+    "J. Petrol. 37:1579, from memory), rounded up",
     0.0,
     0.5,
 )

@@ -75,8 +75,10 @@ def _decompression_outputs(params) -> tuple[OutputLayer, ...]:
             "melt_thickness_km",
             "km",
             "Column melt thickness",
-            "Melt produced by a decompressing mantle column, integral of melt fraction over "
-            "depth from the solidus to the lithosphere base (McKenzie & Bickle 1988)",
+            "Melt a mantle column makes if it rises to the lithosphere base: integral of melt "
+            "fraction over depth from the solidus to the lithosphere base (McKenzie & Bickle "
+            "1988); realised where the mantle rises (ridges, rifts, back-arcs, plumes; see "
+            "melting_mechanism)",
         ),
     )
 

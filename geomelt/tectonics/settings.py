@@ -109,8 +109,24 @@ def _back_arc(f, p):
     return _upper_plate_zone(f, p) & (by_slab | by_distance)
 
 
+def _upwelling(f, p):
+    """Where the mantle rises: spreading ridges, rifts, back-arcs and hot plumes."""
+    return (
+        _le(f["distance_to_ridge_km"], p.ridge_zone_half_width_km)
+        | _le(f["distance_to_rift_km"], p.rift_zone_half_width_km)
+        | _back_arc(f, p)
+        | _ge(
+            f["potential_temperature_c"] - p.mantle_potential_temperature_c,
+            p.hotspot_min_excess_temperature_k,
+        )
+    )
+
+
 def _mantle_melt(f, p):
-    return _ge(f["melt_thickness_km"], p.min_melt_thickness_km) & _gt(f["melt_thickness_km"], 0)
+    # The melt column is what mantle rising to the lithosphere base would make; it is
+    # realised only where the mantle actually rises.
+    thick = _ge(f["melt_thickness_km"], p.min_melt_thickness_km) & _gt(f["melt_thickness_km"], 0)
+    return thick & _upwelling(f, p)
 
 
 def _flux_melt(f, p):
@@ -192,7 +208,16 @@ _CONDITION_LIST = (
         "decompression or flux melting of the mantle",
         lambda f, p: _mantle_melt(f, p) | _flux_melt(f, p),
     ),
-    Condition("decompression_melt", "column melt thickness >= min_melt_thickness_km", _mantle_melt),
+    Condition(
+        "upwelling",
+        "mantle rises here: near a ridge or rift, behind an arc, or in a hot plume",
+        _upwelling,
+    ),
+    Condition(
+        "decompression_melt",
+        "column melt thickness >= min_melt_thickness_km where the mantle rises",
+        _mantle_melt,
+    ),
     Condition("flux_melt", "wedge melt fraction >= min_wedge_melt_fraction", _flux_melt),
     Condition("crustal_melt", "crustal melt fraction >= min_crustal_melt_fraction", _crustal_melt),
     Condition(
