@@ -1031,3 +1031,611 @@ BOUNDARY_REACH_KM = _c(
     100.0,
     5000.0,
 )
+
+# --------------------------------------------------------------------------------------
+# Melt productivity (geomelt.physics.productivity): opening and closing rates of plate
+# boundaries, production zones, plume upwelling and the arc wedge flow
+# --------------------------------------------------------------------------------------
+RIDGE_DEFAULT_RATE_MM_YR = _c(
+    "ridge_default_rate_mm_yr",
+    50.0,
+    "mm yr-1",
+    "Full spreading rate used for a ridge line whose rate_mm_yr is missing",
+    "common practice: about 3.4 km2 yr-1 of new ocean floor (Rowley 2002, GSA Bull. 114:927, "
+    "from memory) made along ~60,000-65,000 km of ridge (from memory) is a mean full rate "
+    "of 50-55 mm/yr",
+    0.0,
+    250.0,
+)
+RIFT_DEFAULT_RATE_MM_YR = _c(
+    "rift_default_rate_mm_yr",
+    5.0,
+    "mm yr-1",
+    "Full extension rate used for a rift line whose rate_mm_yr is missing",
+    "common practice: the East African Rift opens at ~1-7 mm/yr (Saria et al. 2014, JGR "
+    "119:3584, from memory)",
+    0.0,
+    50.0,
+)
+SUBDUCTION_DEFAULT_RATE_MM_YR = _c(
+    "subduction_default_rate_mm_yr",
+    65.0,
+    "mm yr-1",
+    "Convergence rate used for a subduction line whose rate_mm_yr is missing",
+    "common practice: trench-normal convergence is mostly 20-100 mm/yr, 60-70 mm/yr on "
+    "average (Lallemand, Heuret & Boutelier 2005, G3 6:Q09006, from memory)",
+    0.0,
+    250.0,
+)
+COLLISION_DEFAULT_RATE_MM_YR = _c(
+    "collision_default_rate_mm_yr",
+    30.0,
+    "mm yr-1",
+    "Convergence rate used for a collision line whose rate_mm_yr is missing (collisions make "
+    "no mantle-melt production term; the rate is reported for crustal-melting use)",
+    "common practice: India-Eurasia ~35-40 mm/yr, Arabia-Eurasia ~20-25 mm/yr (from memory)",
+    0.0,
+    100.0,
+)
+RIDGE_PRODUCTION_HALF_WIDTH_KM = _c(
+    "ridge_production_half_width_km",
+    50.0,
+    "km",
+    "Half-width of the zone about a ridge axis over which the ridge's melt production is "
+    "spread (map footprint of the melting region)",
+    "common practice: melting beneath ridges starts at 60-80 km depth and the melting "
+    "region is of that order wide near its top (from memory); narrower than the 100 km "
+    "mid-ocean ridge setting zone, whose outer part is cooling young crust",
+    1.0,
+    500.0,
+)
+RIFT_PRODUCTION_HALF_WIDTH_KM = _c(
+    "rift_production_half_width_km",
+    50.0,
+    "km",
+    "Half-width of the zone about a rift axis over which the rift's melt production is spread",
+    "common practice: continental rift valleys are ~40-100 km wide (from memory)",
+    1.0,
+    500.0,
+)
+PRODUCTION_ZONE_PROFILE = _c(
+    "production_zone_profile",
+    "uniform",
+    "",
+    "How ridge and rift production is spread across its zone: 'uniform', or 'triangular' "
+    "(peak on the axis, falling linearly to 0 at the zone edge); both integrate to the same "
+    "production per km of boundary",
+    "common practice",
+    choices=("uniform", "triangular"),
+)
+ARC_WEDGE_FLOW_THICKNESS_KM = _c(
+    "arc_wedge_flow_thickness_km",
+    5.0,
+    "km",
+    "Thickness of the mantle-wedge layer that corner flow carries through the melting region "
+    "beneath an arc: arc production per km = wedge melt fraction x convergence rate x this",
+    "from memory: slab fluids hydrate a layer a few km to ~10 km thick above the slab that "
+    "is dragged down through the hot wedge (e.g. Iwamori 1998, EPSL 160:65, from memory); "
+    "5 km puts the default arc production (0.12 x 50-90 mm/yr) at 31-55 km3 km-1 Myr-1, "
+    "inside the published 20-95 (Reymer & Schubert 1984, Tectonics 3:63; Dimalanta et al. "
+    "2002, Tectonophysics 357:269; both from memory)",
+    0.5,
+    30.0,
+)
+ARC_PRODUCTION_WIDTH_KM = _c(
+    "arc_production_width_km",
+    80.0,
+    "km",
+    "Across-arc width over which arc production is spread: horizontal width of the wedge "
+    "with full slab water (the 80-130 km slab-depth window plus half the behind-arc taper "
+    "at a ~45 degree slab dip)",
+    "common practice (slabs dip ~30-70 degrees beneath arcs, from memory)",
+    10.0,
+    500.0,
+)
+PLUME_REFERENCE_UPWELLING_MM_YR = _c(
+    "plume_reference_upwelling_mm_yr",
+    5.0,
+    "mm yr-1",
+    "Upwelling velocity of plume mantle through the melting region where its excess "
+    "temperature equals plume_reference_excess_temperature_k; it scales with the local "
+    "excess temperature, so a Gaussian plume has w = w0 exp(-(r/R)^2)",
+    "calibrated (geomelt): a +200 K plume of radius 300 km under a 90 km lid then supplies "
+    "0.12 km3/yr, close to the 0.11 km3/yr magma supply of Kilauea in 1952-71 (Swanson 1972, "
+    "Science 175:169); its buoyancy flux, ~0.6 Mg/s, is inside the ~0.3-9 Mg/s of hotspots "
+    "(Sleep 1990, JGR 95:6715, from memory)",
+    0.0,
+    500.0,
+)
+PLUME_REFERENCE_EXCESS_TEMPERATURE_K = _c(
+    "plume_reference_excess_temperature_k",
+    200.0,
+    "K",
+    "Excess potential temperature at which plume upwelling equals plume_reference_upwelling_mm_yr",
+    "White & McKenzie 1989, JGR 94:7685 (plume heads +100 to +200 K); Herzberg et al. 2007, "
+    "G3 (+200 to +300 K)",
+    1.0,
+    500.0,
+)
+
+# --------------------------------------------------------------------------------------
+# Screening (geomelt.physics.screening): fuzzy memberships and their combination
+# (Zadeh 1965; An, Moon & Rencz 1991; Bonham-Carter 1994, chapter 9)
+# --------------------------------------------------------------------------------------
+SCREENING_COMBINATION = _c(
+    "screening_combination",
+    "weighted_sum",
+    "",
+    "How screening factors combine into a score: 'weighted_sum' (weighted mean, weights "
+    "normalised to sum to 1) or 'gamma' (fuzzy gamma operator; weights then only select "
+    "factors, a weight of 0 drops one)",
+    "An, Moon & Rencz 1991, Can. J. Explor. Geophys. 27:1 (from memory); Bonham-Carter 1994, "
+    "Geographic Information Systems for Geoscientists, ch. 9",
+    choices=("weighted_sum", "gamma"),
+)
+FUZZY_GAMMA = _c(
+    "fuzzy_gamma",
+    0.9,
+    "1",
+    "Exponent of the fuzzy gamma operator: 0 gives the algebraic product, 1 the algebraic sum",
+    "Zimmermann & Zysno 1980, Fuzzy Sets Syst. 4:37 (operator, from memory); values of "
+    "0.8-0.975 are usual in mineral-potential work (Bonham-Carter 1994, ch. 9, from memory)",
+    0.0,
+    1.0,
+)
+_HEAT_WEIGHT = (
+    "geomelt default (expert judgement, not a published weighting); weights are normalised "
+    "to sum to 1"
+)
+SCREENING_TEMPERATURE_DEPTH_KM = _c(
+    "screening_temperature_depth_km",
+    3.0,
+    "km",
+    "Depth of the temperature scored by the geothermal temperature factor",
+    "common practice (conventional geothermal production wells are 1-3 km deep, rarely 4-5 km; "
+    "from memory)",
+    0.5,
+    10.0,
+)
+HEAT_SOURCE_TEMPERATURE_ZERO_C = _c(
+    "heat_source_temperature_zero_c",
+    100.0,
+    "degC",
+    "Temperature at the screening depth that scores 0 on the temperature factor",
+    "common practice (~100 degC: the lower limit of binary power, upper range of direct use)",
+    0.0,
+    400.0,
+)
+HEAT_SOURCE_TEMPERATURE_FULL_C = _c(
+    "heat_source_temperature_full_c",
+    250.0,
+    "degC",
+    "Temperature at the screening depth that scores 1 on the temperature factor",
+    "common practice (high-enthalpy flash reservoirs are ~200-300 degC, from memory)",
+    50.0,
+    600.0,
+)
+DIRECT_USE_ISOTHERM_C = _c(
+    "direct_use_isotherm_c",
+    100.0,
+    "degC",
+    "Isotherm whose depth is scored for direct use (district heating, industry)",
+    "common practice",
+    20.0,
+    400.0,
+)
+BINARY_ISOTHERM_C = _c(
+    "binary_isotherm_c",
+    150.0,
+    "degC",
+    "Isotherm whose depth is scored for binary-cycle power",
+    "common practice (binary plants use ~100-180 degC fluids; DiPippo, Geothermal Power "
+    "Plants, from memory)",
+    20.0,
+    400.0,
+)
+FLASH_ISOTHERM_C = _c(
+    "flash_isotherm_c",
+    200.0,
+    "degC",
+    "Isotherm whose depth is scored for flash-steam power",
+    "common practice (flash plants need reservoirs above ~180-200 degC, from memory)",
+    20.0,
+    400.0,
+)
+ISOTHERM_DEPTH_FULL_KM = _c(
+    "isotherm_depth_full_km",
+    2.0,
+    "km",
+    "An isotherm at most this deep scores 1 on its isotherm-depth factor",
+    "common practice (most producing geothermal wells are 1-3 km deep, from memory)",
+    0.0,
+    10.0,
+)
+ISOTHERM_DEPTH_ZERO_KM = _c(
+    "isotherm_depth_zero_km",
+    6.0,
+    "km",
+    "An isotherm at least this deep scores 0 on its isotherm-depth factor",
+    "common practice (the deepest geothermal and EGS wells reach ~5-6 km, from memory)",
+    0.5,
+    20.0,
+)
+MELT_PROXIMITY_FULL_KM = _c(
+    "melt_proximity_full_km",
+    50.0,
+    "km",
+    "Cells at most this far from predicted melt score 1 on melt proximity",
+    "common practice (high-temperature geothermal fields lie within a few tens of km of "
+    "young magmatic centres; regional melt maps locate melt to a few tens of km)",
+    0.0,
+    500.0,
+)
+MELT_PROXIMITY_ZERO_KM = _c(
+    "melt_proximity_zero_km",
+    200.0,
+    "km",
+    "Cells at least this far from predicted melt score 0 on melt proximity",
+    "common practice (beyond ~200 km magmatic heat no longer reaches the upper crust)",
+    1.0,
+    2000.0,
+)
+HEAT_SOURCE_CRUSTAL_MELT_FULL_FRACTION = _c(
+    "heat_source_crustal_melt_full_fraction",
+    0.07,
+    "1",
+    "Crustal melt fraction that scores 1 on the crustal-melt factor (no melt scores 0)",
+    "melt becomes interconnected and mobile near 7 vol% (melt connectivity transition, "
+    "Rosenberg & Handy 2005, J. Metamorph. Geol. 23:19, from memory)",
+    0.001,
+    0.5,
+)
+HEAT_SOURCE_WEIGHT_TEMPERATURE = _c(
+    "heat_source_weight_temperature",
+    0.30,
+    "1",
+    "Weight of the temperature-at-depth factor in the heat-source score",
+    _HEAT_WEIGHT,
+    0.0,
+    10.0,
+)
+HEAT_SOURCE_WEIGHT_DIRECT_USE = _c(
+    "heat_source_weight_direct_use",
+    0.10,
+    "1",
+    "Weight of the direct-use isotherm-depth factor in the heat-source score",
+    _HEAT_WEIGHT,
+    0.0,
+    10.0,
+)
+HEAT_SOURCE_WEIGHT_BINARY = _c(
+    "heat_source_weight_binary",
+    0.15,
+    "1",
+    "Weight of the binary-power isotherm-depth factor in the heat-source score",
+    _HEAT_WEIGHT,
+    0.0,
+    10.0,
+)
+HEAT_SOURCE_WEIGHT_FLASH = _c(
+    "heat_source_weight_flash",
+    0.15,
+    "1",
+    "Weight of the flash-power isotherm-depth factor in the heat-source score",
+    _HEAT_WEIGHT,
+    0.0,
+    10.0,
+)
+HEAT_SOURCE_WEIGHT_MELT_PROXIMITY = _c(
+    "heat_source_weight_melt_proximity",
+    0.20,
+    "1",
+    "Weight of the melt-proximity factor in the heat-source score",
+    _HEAT_WEIGHT,
+    0.0,
+    10.0,
+)
+HEAT_SOURCE_WEIGHT_CRUSTAL_MELT = _c(
+    "heat_source_weight_crustal_melt",
+    0.10,
+    "1",
+    "Weight of the crustal-melt factor in the heat-source score",
+    _HEAT_WEIGHT,
+    0.0,
+    10.0,
+)
+
+# Mineral-system affinity: membership breakpoints
+FLUX_MELT_FRACTION_FULL = _c(
+    "flux_melt_fraction_full",
+    0.10,
+    "1",
+    "Wedge (flux) melt fraction that scores 1 on the flux-melting factor (0 melt scores 0)",
+    "common practice: arc basalt sources melt by ~10-25 % (Kelley et al. 2010, J. Petrol. "
+    "51:1711, from memory); the default sub-arc wedge reaches 0.12",
+    0.001,
+    0.5,
+)
+HIGH_DEGREE_MELT_FRACTION_ZERO = _c(
+    "high_degree_melt_fraction_zero",
+    0.10,
+    "1",
+    "Mantle melt fraction that scores 0 on the high-degree-melting factor",
+    "source sulfide is used up near 20-25 % melting, so only higher-degree melts carry the "
+    "chalcophile metals and PGE (Keays 1995, Lithos 34:1; Naldrett 2004; from memory)",
+    0.0,
+    0.5,
+)
+HIGH_DEGREE_MELT_FRACTION_FULL = _c(
+    "high_degree_melt_fraction_full",
+    0.25,
+    "1",
+    "Mantle melt fraction that scores 1 on the high-degree-melting factor",
+    "same as high_degree_melt_fraction_zero",
+    0.01,
+    0.6,
+)
+MANTLE_MELT_THICKNESS_ZERO_KM = _c(
+    "mantle_melt_thickness_zero_km",
+    0.5,
+    "km",
+    "Column melt thickness that scores 0 on the melt-volume factor",
+    "common practice (the decompression-mechanism threshold min_melt_thickness_km)",
+    0.0,
+    20.0,
+)
+MANTLE_MELT_THICKNESS_FULL_KM = _c(
+    "mantle_melt_thickness_full_km",
+    5.0,
+    "km",
+    "Column melt thickness that scores 1 on the melt-volume factor",
+    "common practice (approaching normal oceanic crust, 7.1 +/- 0.8 km, White, McKenzie & "
+    "O'Nions 1992, from memory)",
+    0.1,
+    50.0,
+)
+CONTINENTAL_CRUST_ZERO_KM = _c(
+    "continental_crust_zero_km",
+    15.0,
+    "km",
+    "Crustal thickness that scores 0 on continental character (porphyry, Ni-Cu-PGE) and 1 on "
+    "thin, submarine crust (VMS)",
+    "common practice: oceanic crust ~7 km, intra-oceanic arcs ~20-35 km, continents ~40 km "
+    "(Rudnick & Gao 2003; Christensen & Mooney 1995, JGR 100:9761, from memory)",
+    0.0,
+    60.0,
+)
+CONTINENTAL_CRUST_FULL_KM = _c(
+    "continental_crust_full_km",
+    35.0,
+    "km",
+    "Crustal thickness that scores 1 on continental character and 0 on thin crust (VMS)",
+    "same as continental_crust_zero_km",
+    5.0,
+    80.0,
+)
+THICK_CRUST_ZERO_KM = _c(
+    "thick_crust_zero_km",
+    35.0,
+    "km",
+    "Crustal thickness that scores 0 on the thickened-crust factor (Sn-W-Li)",
+    "common practice: average continental crust ~40 km; collision orogens 60-80 km (Mooney et "
+    "al. 2004: crust > 50 km is < 10 % of continents)",
+    10.0,
+    80.0,
+)
+THICK_CRUST_FULL_KM = _c(
+    "thick_crust_full_km",
+    60.0,
+    "km",
+    "Crustal thickness that scores 1 on the thickened-crust factor (Sn-W-Li)",
+    "same as thick_crust_zero_km",
+    20.0,
+    100.0,
+)
+ANATEXIS_MELT_FRACTION_FULL = _c(
+    "anatexis_melt_fraction_full",
+    0.15,
+    "1",
+    "Crustal melt fraction that scores 1 on the anatexis factor of granite-related Sn-W-Li "
+    "(no melt scores 0)",
+    "common practice: between the ends of muscovite (~0.08) and biotite (~0.25) dehydration "
+    "melting in geomelt's crustal melting ramp",
+    0.001,
+    0.6,
+)
+
+# Mineral-system affinity: factor weights (normalised within each system)
+_MIN_WEIGHT = (
+    "geomelt default (expert judgement on the deposit-model association cited with the "
+    "system; not a published weighting); weights are normalised within the system"
+)
+PORPHYRY_WEIGHT_SETTING = _c(
+    "porphyry_weight_setting",
+    0.35,
+    "1",
+    "Porphyry Cu-Au-Mo: weight of the tectonic-setting factor",
+    _MIN_WEIGHT,
+    0.0,
+    10.0,
+)
+PORPHYRY_WEIGHT_FLUX_MELT = _c(
+    "porphyry_weight_flux_melt",
+    0.25,
+    "1",
+    "Porphyry Cu-Au-Mo: weight of the flux-melting factor",
+    _MIN_WEIGHT,
+    0.0,
+    10.0,
+)
+PORPHYRY_WEIGHT_MAGMA = _c(
+    "porphyry_weight_magma",
+    0.25,
+    "1",
+    "Porphyry Cu-Au-Mo: weight of the magma-type factor",
+    _MIN_WEIGHT,
+    0.0,
+    10.0,
+)
+PORPHYRY_WEIGHT_CRUST = _c(
+    "porphyry_weight_crust",
+    0.15,
+    "1",
+    "Porphyry Cu-Au-Mo: weight of the continental-crust factor",
+    _MIN_WEIGHT,
+    0.0,
+    10.0,
+)
+EPITHERMAL_WEIGHT_SETTING = _c(
+    "epithermal_weight_setting",
+    0.35,
+    "1",
+    "Epithermal Au-Ag: weight of the tectonic-setting factor",
+    _MIN_WEIGHT,
+    0.0,
+    10.0,
+)
+EPITHERMAL_WEIGHT_FLUX_MELT = _c(
+    "epithermal_weight_flux_melt",
+    0.20,
+    "1",
+    "Epithermal Au-Ag: weight of the flux-melting factor",
+    _MIN_WEIGHT,
+    0.0,
+    10.0,
+)
+EPITHERMAL_WEIGHT_MAGMA = _c(
+    "epithermal_weight_magma",
+    0.25,
+    "1",
+    "Epithermal Au-Ag: weight of the magma-type factor",
+    _MIN_WEIGHT,
+    0.0,
+    10.0,
+)
+EPITHERMAL_WEIGHT_MELTING = _c(
+    "epithermal_weight_melting",
+    0.20,
+    "1",
+    "Epithermal Au-Ag: weight of the active-melting factor (any melting mechanism)",
+    _MIN_WEIGHT,
+    0.0,
+    10.0,
+)
+NI_CU_PGE_WEIGHT_SETTING = _c(
+    "ni_cu_pge_weight_setting",
+    0.30,
+    "1",
+    "Magmatic Ni-Cu-PGE: weight of the tectonic-setting factor",
+    _MIN_WEIGHT,
+    0.0,
+    10.0,
+)
+NI_CU_PGE_WEIGHT_MELT_FRACTION = _c(
+    "ni_cu_pge_weight_melt_fraction",
+    0.25,
+    "1",
+    "Magmatic Ni-Cu-PGE: weight of the high-degree-melting factor",
+    _MIN_WEIGHT,
+    0.0,
+    10.0,
+)
+NI_CU_PGE_WEIGHT_MELT_VOLUME = _c(
+    "ni_cu_pge_weight_melt_volume",
+    0.10,
+    "1",
+    "Magmatic Ni-Cu-PGE: weight of the melt-volume (column melt thickness) factor",
+    _MIN_WEIGHT,
+    0.0,
+    10.0,
+)
+NI_CU_PGE_WEIGHT_MAGMA = _c(
+    "ni_cu_pge_weight_magma",
+    0.15,
+    "1",
+    "Magmatic Ni-Cu-PGE: weight of the magma-type factor",
+    _MIN_WEIGHT,
+    0.0,
+    10.0,
+)
+NI_CU_PGE_WEIGHT_CRUST = _c(
+    "ni_cu_pge_weight_crust",
+    0.20,
+    "1",
+    "Magmatic Ni-Cu-PGE: weight of the continental-crust factor (crustal sulfur)",
+    _MIN_WEIGHT,
+    0.0,
+    10.0,
+)
+SN_W_LI_WEIGHT_SETTING = _c(
+    "sn_w_li_weight_setting",
+    0.30,
+    "1",
+    "Granite-related Sn-W-Li: weight of the tectonic-setting factor",
+    _MIN_WEIGHT,
+    0.0,
+    10.0,
+)
+SN_W_LI_WEIGHT_ANATEXIS = _c(
+    "sn_w_li_weight_anatexis",
+    0.30,
+    "1",
+    "Granite-related Sn-W-Li: weight of the crustal-melting (anatexis) factor",
+    _MIN_WEIGHT,
+    0.0,
+    10.0,
+)
+SN_W_LI_WEIGHT_MAGMA = _c(
+    "sn_w_li_weight_magma",
+    0.20,
+    "1",
+    "Granite-related Sn-W-Li: weight of the magma-type factor",
+    _MIN_WEIGHT,
+    0.0,
+    10.0,
+)
+SN_W_LI_WEIGHT_THICK_CRUST = _c(
+    "sn_w_li_weight_thick_crust",
+    0.20,
+    "1",
+    "Granite-related Sn-W-Li: weight of the thickened-crust factor",
+    _MIN_WEIGHT,
+    0.0,
+    10.0,
+)
+VMS_WEIGHT_SETTING = _c(
+    "vms_weight_setting",
+    0.35,
+    "1",
+    "Volcanogenic massive sulfide: weight of the tectonic-setting factor",
+    _MIN_WEIGHT,
+    0.0,
+    10.0,
+)
+VMS_WEIGHT_THIN_CRUST = _c(
+    "vms_weight_thin_crust",
+    0.20,
+    "1",
+    "Volcanogenic massive sulfide: weight of the thin (submarine) crust factor",
+    _MIN_WEIGHT,
+    0.0,
+    10.0,
+)
+VMS_WEIGHT_MAGMA = _c(
+    "vms_weight_magma",
+    0.20,
+    "1",
+    "Volcanogenic massive sulfide: weight of the magma-type factor",
+    _MIN_WEIGHT,
+    0.0,
+    10.0,
+)
+VMS_WEIGHT_MELT_VOLUME = _c(
+    "vms_weight_melt_volume",
+    0.25,
+    "1",
+    "Volcanogenic massive sulfide: weight of the melt-volume (column melt thickness) factor",
+    _MIN_WEIGHT,
+    0.0,
+    10.0,
+)

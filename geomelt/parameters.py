@@ -22,8 +22,11 @@ __all__ = [
     "BoundaryParameters",
     "CrustalMeltingParameters",
     "FluxMeltingParameters",
+    "GeothermalScreeningParameters",
     "MantleMeltingParameters",
+    "MineralScreeningParameters",
     "ParameterSet",
+    "ProductivityParameters",
     "SettingParameters",
     "ThermalParameters",
     "param",
@@ -342,3 +345,152 @@ def _check_weights(pset: ParameterSet, names: tuple[str, ...], what: str) -> Non
     if all(getattr(pset, n) == 0.0 for n in names):
         msg = f"the {what} weights ({', '.join(names)}) must not all be 0"
         raise ParameterError(msg)
+
+
+@dataclasses.dataclass(frozen=True)
+class ProductivityParameters(ParameterSet):
+    """Parameters of melt productivity: plate rates, production zones and plume upwelling.
+
+    Ridge and rift production per km of boundary is column melt thickness times the full
+    opening rate (McKenzie & Bickle 1988); arc production is wedge melt fraction times
+    convergence rate times the thickness of wedge carried through the melting region;
+    plume production is upwelling velocity times melt fraction.
+    """
+
+    title: ClassVar[str] = "melt productivity"
+
+    ridge_default_rate_mm_yr: float = param(C.RIDGE_DEFAULT_RATE_MM_YR)
+    rift_default_rate_mm_yr: float = param(C.RIFT_DEFAULT_RATE_MM_YR)
+    subduction_default_rate_mm_yr: float = param(C.SUBDUCTION_DEFAULT_RATE_MM_YR)
+    collision_default_rate_mm_yr: float = param(C.COLLISION_DEFAULT_RATE_MM_YR)
+    ridge_production_half_width_km: float = param(C.RIDGE_PRODUCTION_HALF_WIDTH_KM)
+    rift_production_half_width_km: float = param(C.RIFT_PRODUCTION_HALF_WIDTH_KM)
+    production_zone_profile: str = param(C.PRODUCTION_ZONE_PROFILE)
+    arc_wedge_flow_thickness_km: float = param(C.ARC_WEDGE_FLOW_THICKNESS_KM)
+    arc_production_width_km: float = param(C.ARC_PRODUCTION_WIDTH_KM)
+    plume_reference_upwelling_mm_yr: float = param(C.PLUME_REFERENCE_UPWELLING_MM_YR)
+    plume_reference_excess_temperature_k: float = param(C.PLUME_REFERENCE_EXCESS_TEMPERATURE_K)
+    mantle_potential_temperature_c: float = param(C.MANTLE_POTENTIAL_TEMPERATURE_C)
+
+
+@dataclasses.dataclass(frozen=True)
+class GeothermalScreeningParameters(ParameterSet):
+    """Membership breakpoints and weights of the geothermal heat-source factors and score.
+
+    Fuzzy memberships (Zadeh 1965) combined by a weighted mean or the fuzzy gamma operator
+    (An, Moon & Rencz 1991; Bonham-Carter 1994, chapter 9).
+    """
+
+    title: ClassVar[str] = "geothermal heat-source screening"
+
+    screening_temperature_depth_km: float = param(C.SCREENING_TEMPERATURE_DEPTH_KM)
+    heat_source_temperature_zero_c: float = param(C.HEAT_SOURCE_TEMPERATURE_ZERO_C)
+    heat_source_temperature_full_c: float = param(C.HEAT_SOURCE_TEMPERATURE_FULL_C)
+    direct_use_isotherm_c: float = param(C.DIRECT_USE_ISOTHERM_C)
+    binary_isotherm_c: float = param(C.BINARY_ISOTHERM_C)
+    flash_isotherm_c: float = param(C.FLASH_ISOTHERM_C)
+    isotherm_depth_full_km: float = param(C.ISOTHERM_DEPTH_FULL_KM)
+    isotherm_depth_zero_km: float = param(C.ISOTHERM_DEPTH_ZERO_KM)
+    melt_proximity_full_km: float = param(C.MELT_PROXIMITY_FULL_KM)
+    melt_proximity_zero_km: float = param(C.MELT_PROXIMITY_ZERO_KM)
+    heat_source_crustal_melt_full_fraction: float = param(C.HEAT_SOURCE_CRUSTAL_MELT_FULL_FRACTION)
+    heat_source_weight_temperature: float = param(C.HEAT_SOURCE_WEIGHT_TEMPERATURE)
+    heat_source_weight_direct_use: float = param(C.HEAT_SOURCE_WEIGHT_DIRECT_USE)
+    heat_source_weight_binary: float = param(C.HEAT_SOURCE_WEIGHT_BINARY)
+    heat_source_weight_flash: float = param(C.HEAT_SOURCE_WEIGHT_FLASH)
+    heat_source_weight_melt_proximity: float = param(C.HEAT_SOURCE_WEIGHT_MELT_PROXIMITY)
+    heat_source_weight_crustal_melt: float = param(C.HEAT_SOURCE_WEIGHT_CRUSTAL_MELT)
+    screening_combination: str = param(C.SCREENING_COMBINATION)
+    fuzzy_gamma: float = param(C.FUZZY_GAMMA)
+
+    def __post_init__(self) -> None:
+        super().__post_init__()
+        # the heat-source score must rise with heat: hotter at depth, shallower isotherms and
+        # nearer melt never score lower
+        for zero, full, increasing in (
+            ("heat_source_temperature_zero_c", "heat_source_temperature_full_c", True),
+            ("isotherm_depth_zero_km", "isotherm_depth_full_km", False),
+            ("melt_proximity_zero_km", "melt_proximity_full_km", False),
+        ):
+            _check_ramp(self, zero, full)
+            if (getattr(self, full) > getattr(self, zero)) != increasing:
+                msg = (
+                    f"parameter {full!r} ({getattr(self, full):g}) must be "
+                    f"{'above' if increasing else 'below'} {zero!r} ({getattr(self, zero):g}) "
+                    "so that more heat never scores lower"
+                )
+                raise ParameterError(msg)
+        _check_weights(
+            self,
+            (
+                "heat_source_weight_temperature",
+                "heat_source_weight_direct_use",
+                "heat_source_weight_binary",
+                "heat_source_weight_flash",
+                "heat_source_weight_melt_proximity",
+                "heat_source_weight_crustal_melt",
+            ),
+            "heat-source",
+        )
+
+
+@dataclasses.dataclass(frozen=True)
+class MineralScreeningParameters(ParameterSet):
+    """Membership breakpoints and weights of the mineral-system affinity factors and scores.
+
+    Each system's factors (setting, melting, magma type, crust) are fuzzy memberships
+    (Zadeh 1965) combined by a weighted mean or the fuzzy gamma operator (An, Moon & Rencz
+    1991; Bonham-Carter 1994, chapter 9). The deposit-model associations and their sources
+    are in :mod:`geomelt.physics.screening`.
+    """
+
+    title: ClassVar[str] = "mineral-system screening"
+
+    flux_melt_fraction_full: float = param(C.FLUX_MELT_FRACTION_FULL)
+    high_degree_melt_fraction_zero: float = param(C.HIGH_DEGREE_MELT_FRACTION_ZERO)
+    high_degree_melt_fraction_full: float = param(C.HIGH_DEGREE_MELT_FRACTION_FULL)
+    mantle_melt_thickness_zero_km: float = param(C.MANTLE_MELT_THICKNESS_ZERO_KM)
+    mantle_melt_thickness_full_km: float = param(C.MANTLE_MELT_THICKNESS_FULL_KM)
+    continental_crust_zero_km: float = param(C.CONTINENTAL_CRUST_ZERO_KM)
+    continental_crust_full_km: float = param(C.CONTINENTAL_CRUST_FULL_KM)
+    thick_crust_zero_km: float = param(C.THICK_CRUST_ZERO_KM)
+    thick_crust_full_km: float = param(C.THICK_CRUST_FULL_KM)
+    anatexis_melt_fraction_full: float = param(C.ANATEXIS_MELT_FRACTION_FULL)
+    porphyry_weight_setting: float = param(C.PORPHYRY_WEIGHT_SETTING)
+    porphyry_weight_flux_melt: float = param(C.PORPHYRY_WEIGHT_FLUX_MELT)
+    porphyry_weight_magma: float = param(C.PORPHYRY_WEIGHT_MAGMA)
+    porphyry_weight_crust: float = param(C.PORPHYRY_WEIGHT_CRUST)
+    epithermal_weight_setting: float = param(C.EPITHERMAL_WEIGHT_SETTING)
+    epithermal_weight_flux_melt: float = param(C.EPITHERMAL_WEIGHT_FLUX_MELT)
+    epithermal_weight_magma: float = param(C.EPITHERMAL_WEIGHT_MAGMA)
+    epithermal_weight_melting: float = param(C.EPITHERMAL_WEIGHT_MELTING)
+    ni_cu_pge_weight_setting: float = param(C.NI_CU_PGE_WEIGHT_SETTING)
+    ni_cu_pge_weight_melt_fraction: float = param(C.NI_CU_PGE_WEIGHT_MELT_FRACTION)
+    ni_cu_pge_weight_melt_volume: float = param(C.NI_CU_PGE_WEIGHT_MELT_VOLUME)
+    ni_cu_pge_weight_magma: float = param(C.NI_CU_PGE_WEIGHT_MAGMA)
+    ni_cu_pge_weight_crust: float = param(C.NI_CU_PGE_WEIGHT_CRUST)
+    sn_w_li_weight_setting: float = param(C.SN_W_LI_WEIGHT_SETTING)
+    sn_w_li_weight_anatexis: float = param(C.SN_W_LI_WEIGHT_ANATEXIS)
+    sn_w_li_weight_magma: float = param(C.SN_W_LI_WEIGHT_MAGMA)
+    sn_w_li_weight_thick_crust: float = param(C.SN_W_LI_WEIGHT_THICK_CRUST)
+    vms_weight_setting: float = param(C.VMS_WEIGHT_SETTING)
+    vms_weight_thin_crust: float = param(C.VMS_WEIGHT_THIN_CRUST)
+    vms_weight_magma: float = param(C.VMS_WEIGHT_MAGMA)
+    vms_weight_melt_volume: float = param(C.VMS_WEIGHT_MELT_VOLUME)
+    screening_combination: str = param(C.SCREENING_COMBINATION)
+    fuzzy_gamma: float = param(C.FUZZY_GAMMA)
+
+    def __post_init__(self) -> None:
+        super().__post_init__()
+        for zero, full in (
+            ("high_degree_melt_fraction_zero", "high_degree_melt_fraction_full"),
+            ("mantle_melt_thickness_zero_km", "mantle_melt_thickness_full_km"),
+            ("continental_crust_zero_km", "continental_crust_full_km"),
+            ("thick_crust_zero_km", "thick_crust_full_km"),
+        ):
+            _check_ramp(self, zero, full)
+        for system in ("porphyry", "epithermal", "ni_cu_pge", "sn_w_li", "vms"):
+            names = tuple(
+                f.name for f in dataclasses.fields(self) if f.name.startswith(f"{system}_weight_")
+            )
+            _check_weights(self, names, system)
