@@ -27,6 +27,7 @@ UNIT_SUFFIX = {
     "kg m-3": "_kg_m3",
     "J kg-1 K-1": "_j_kg_k",
     "mm yr-1": "_mm_yr",
+    "m3 km-2 yr-1": "_m3_km2_yr",
 }
 DIMENSIONLESS = ("", "1", "class")
 

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import sys
 
+import numpy as np
 import pytest
 import rasterio
 from click.testing import CliRunner
@@ -194,3 +195,21 @@ def test_settings_polygons_and_boundaries_in_the_geopackage(demo_out):
 def test_quicklook_maps_written(demo_out):
     pngs = {p.stem for p in (demo_out / "quicklook").glob("*.png")}
     assert {"setting", "melting_mechanism", "magma_type", "melt_thickness_km"} <= pngs
+
+
+def test_ridge_production_integrates_to_melt_thickness_times_rate(demo_out):
+    # McKenzie & Bickle (1988): production per km of ridge = crustal (melt) thickness x
+    # full spreading rate. Summing the per-cell density across the ridge must give it back.
+    ridge = kinds("mid_ocean_ridge")[0]
+    h = value_at(demo_out, "melt_thickness_km", ridge)
+    with rasterio.open(demo_out / "ridge_melt_production_m3_km2_yr.tif") as ds:
+        row, _ = ds.index(ridge["x"], ridge["y"])
+        density = ds.read(1)[row]  # m3 km-2 yr-1 along the E-W row through the ridge
+        cell_km = ds.transform.a / 1000.0
+    import pyogrio
+
+    bounds = pyogrio.read_dataframe(SAMPLE_LAYERS / "plate_boundaries.gpkg")
+    rate = float(bounds.loc[bounds["boundary_type"] == "ridge", "rate_mm_yr"].iloc[0])
+    per_km_m3_yr = np.nansum(density) * cell_km  # m3 per km of ridge per year
+    expected = h * rate * 1e9 / 1e6  # km x km/Myr = km3/km/Myr -> m3/km/yr
+    assert per_km_m3_yr == pytest.approx(expected, rel=0.10)

@@ -12,6 +12,7 @@ from importlib.metadata import entry_points
 
 from geomelt.algorithms.base import Algorithm
 from geomelt.algorithms.melting import CRUSTAL_MELTING, DECOMPRESSION_MELTING, FLUX_MELTING
+from geomelt.algorithms.productivity import MELT_PRODUCTIVITY
 from geomelt.algorithms.tectonics import BOUNDARY_PROXIMITY, TECTONIC_SETTING
 from geomelt.algorithms.thermal import THERMAL_STATE
 from geomelt.errors import GeomeltError
@@ -28,6 +29,7 @@ _BUILTIN: tuple[Algorithm, ...] = (
     CRUSTAL_MELTING,
     BOUNDARY_PROXIMITY,
     TECTONIC_SETTING,
+    MELT_PRODUCTIVITY,
 )
 
 

@@ -80,6 +80,14 @@ def _decompression_outputs(params) -> tuple[OutputLayer, ...]:
             "1988); realised where the mantle rises (ridges, rifts, back-arcs, plumes; see "
             "melting_mechanism)",
         ),
+        OutputLayer(
+            "axis_melt_thickness_km",
+            "km",
+            "Melt thickness of a spreading-axis column",
+            "Melt a mantle column makes if it rises to the base of the crust, as beneath a "
+            "spreading axis (McKenzie & Bickle 1988); used for ridge productivity",
+            written=False,
+        ),
     )
 
 
@@ -100,6 +108,9 @@ def _decompression_compute(arrays: Mapping, params: MantleMeltingParameters) -> 
     for key in ("solidus_depth_km", "melt_fraction_max", "melt_thickness_km"):
         out[key] = np.where(valid, res[key], np.nan).astype(np.float32)
     out["potential_temperature_c"][~valid] = np.nan
+    crust = np.asarray(arrays["crustal_thickness_km"], dtype=np.float64)
+    axis = table.lookup(tp, params.mantle_water_wt_pct, np.where(valid, crust, 0.0))
+    out["axis_melt_thickness_km"] = np.where(valid, axis["melt_thickness_km"], np.nan)
     return out
 
 
