@@ -213,3 +213,21 @@ def test_ridge_production_integrates_to_melt_thickness_times_rate(demo_out):
     per_km_m3_yr = np.nansum(density) * cell_km  # m3 per km of ridge per year
     expected = h * rate * 1e9 / 1e6  # km x km/Myr = km3/km/Myr -> m3/km/yr
     assert per_km_m3_yr == pytest.approx(expected, rel=0.10)
+
+
+@pytest.mark.parametrize(
+    ("kind", "system"),
+    [
+        ("continental_arc", "porphyry_cu_au_mo"),  # porphyry Cu with arcs (Sillitoe 2010)
+        ("oceanic_arc", "epithermal_au_ag"),
+        ("continental_collision", "granite_sn_w_li"),  # Sn-W with crustal melts (Lehmann 1990)
+        ("continental_hotspot", "magmatic_ni_cu_pge"),  # Ni-Cu-PGE with plume melts (Naldrett 2004)
+        ("mid_ocean_ridge", "vms"),  # VMS at ridges and back-arcs (Franklin et al. 2005)
+    ],
+)
+def test_mineral_system_scores_follow_their_settings(demo_out, kind, system):
+    f = kinds(kind)[0]
+    own = value_at(demo_out, f"{system}_score", f)
+    craton = value_at(demo_out, f"{system}_score", FEATURES["m"])
+    assert own >= 0.75, (f["name"], own)
+    assert own > craton + 0.4

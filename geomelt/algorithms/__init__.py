@@ -13,6 +13,7 @@ from importlib.metadata import entry_points
 from geomelt.algorithms.base import Algorithm
 from geomelt.algorithms.melting import CRUSTAL_MELTING, DECOMPRESSION_MELTING, FLUX_MELTING
 from geomelt.algorithms.productivity import MELT_PRODUCTIVITY
+from geomelt.algorithms.screening import MINERAL_SCREENING
 from geomelt.algorithms.tectonics import BOUNDARY_PROXIMITY, TECTONIC_SETTING
 from geomelt.algorithms.thermal import THERMAL_STATE
 from geomelt.errors import GeomeltError
@@ -30,6 +31,7 @@ _BUILTIN: tuple[Algorithm, ...] = (
     BOUNDARY_PROXIMITY,
     TECTONIC_SETTING,
     MELT_PRODUCTIVITY,
+    MINERAL_SCREENING,
 )
 
 
