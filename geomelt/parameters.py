@@ -38,11 +38,16 @@ def param(const: Constant) -> Any:
     return dataclasses.field(default=const.value, metadata={"constant": const})
 
 
+def _toml(value: Any) -> str:
+    """A default as it is written in the TOML file (lists in brackets)."""
+    return repr(list(value)) if isinstance(value, tuple) else repr(value)
+
+
 def _check_number(name: str, value: Any, const: Constant) -> float:
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         msg = (
             f"parameter {name!r} must be a number in {const.unit or 'no unit'}, "
-            f"got {value!r} ({type(value).__name__}); e.g. {name} = {const.value!r}"
+            f"got {value!r} ({type(value).__name__}); e.g. {name} = {_toml(const.value)}"
         )
         raise ParameterError(msg)
     value = float(value)

@@ -6,6 +6,7 @@ import click
 
 import geomelt
 from geomelt.cli.algorithms_cmd import algorithms_cmd, describe_cmd
+from geomelt.cli.check_cmd import check_cmd
 from geomelt.cli.column_cmd import column_cmd
 from geomelt.cli.run_cmd import run_cmd
 
@@ -23,6 +24,7 @@ def main() -> None:
 
 
 main.add_command(run_cmd)
+main.add_command(check_cmd)
 main.add_command(algorithms_cmd)
 main.add_command(describe_cmd)
 main.add_command(column_cmd)

@@ -54,7 +54,7 @@ def print_summary(result: RunResult) -> None:
     "--out",
     "out_dir",
     required=True,
-    type=click.Path(file_okay=False, path_type=Path),
+    type=click.Path(path_type=Path),  # a file here is refused by the run (exit 4)
     help="Output folder (created; refused if it exists and is not empty, unless --overwrite).",
 )
 @click.option("--overwrite", is_flag=True, help="Replace geomelt outputs in an existing folder.")

@@ -19,6 +19,7 @@ The file is parsed as data only (TOML has no expressions). Layout::
 
 from __future__ import annotations
 
+import difflib
 import sys
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -32,13 +33,16 @@ if sys.version_info >= (3, 11):
 else:  # pragma: no cover
     import tomli as tomllib
 
-__all__ = ["RUN_OPTIONS", "RunConfig", "load_config", "parse_value"]
+__all__ = ["RUN_OPTIONS", "TABLES", "RunConfig", "load_config", "parse_value"]
 
 RUN_OPTIONS: dict[str, tuple[type, Any, str]] = {
     "reference_grid": (str, "crustal_thickness_km", "input raster that defines the output grid"),
     "block_size": (int, 512, "window size in cells (multiple of 16)"),
 }
 """Keys of the ``[run]`` table: (type, default, meaning)."""
+
+TABLES = ("inputs", "parameters", "run")
+"""The tables a configuration file may hold."""
 
 
 @dataclass
@@ -72,24 +76,34 @@ class RunConfig:
         )
 
 
+def _did_you_mean(name: str, known) -> str:
+    close = difflib.get_close_matches(str(name), list(known), n=1)
+    return f" (did you mean {close[0]!r}?)" if close else ""
+
+
 def _check_input_name(name: str, where: str) -> None:
     if name not in INPUT_LAYERS:
         msg = (
-            f"{where}: unknown input layer {name!r}. Known input layers: {', '.join(INPUT_LAYERS)}."
+            f"{where}: unknown input layer {name!r}{_did_you_mean(name, INPUT_LAYERS)}. "
+            f"Known input layers: {', '.join(INPUT_LAYERS)}."
         )
         raise ConfigError(msg)
 
 
 def _check_run_option(key: str, value: Any, where: str) -> Any:
     if key not in RUN_OPTIONS:
-        msg = f"{where}: unknown [run] option {key!r}. Known options: {', '.join(RUN_OPTIONS)}."
+        msg = (
+            f"{where}: unknown [run] option {key!r}{_did_you_mean(key, RUN_OPTIONS)}. "
+            f"Known options: {', '.join(RUN_OPTIONS)}."
+        )
         raise ConfigError(msg)
     typ = RUN_OPTIONS[key][0]
+    example = f"{key} = {RUN_OPTIONS[key][1]!r}".replace("'", '"')
     if typ is int and (isinstance(value, bool) or not isinstance(value, int)):
-        msg = f"{where}: [run] {key} must be a whole number, got {value!r}."
+        msg = f"{where}: [run] {key} must be a whole number, got {value!r}; e.g. {example}."
         raise ConfigError(msg)
     if typ is str and not isinstance(value, str):
-        msg = f"{where}: [run] {key} must be text, got {value!r}."
+        msg = f"{where}: [run] {key} must be text in quotes, got {value!r}; e.g. {example}."
         raise ConfigError(msg)
     if key == "block_size" and not (16 <= value <= 8192 and value % 16 == 0):
         msg = (
@@ -98,6 +112,13 @@ def _check_run_option(key: str, value: Any, where: str) -> Any:
         raise ConfigError(msg)
     if key == "reference_grid":
         _check_input_name(value, f"{where}: [run] reference_grid")
+        if INPUT_LAYERS[value].kind != "raster":
+            rasters = [n for n, layer in INPUT_LAYERS.items() if layer.kind == "raster"]
+            msg = (
+                f"{where}: [run] reference_grid must name a raster input ({', '.join(rasters)}), "
+                f"got {value!r}."
+            )
+            raise ConfigError(msg)
     return value
 
 
@@ -123,33 +144,50 @@ def load_config(path) -> RunConfig:
     """
     path = Path(path).expanduser().resolve()
     if not path.is_file():
-        msg = f"configuration file {str(path)!r} does not exist."
+        what = "is a folder" if path.is_dir() else "does not exist"
+        msg = (
+            f"configuration file {str(path)!r} {what}. Give the path of the run's TOML file "
+            "(see 'Running your own region' in the README for its layout)."
+        )
         raise ConfigError(msg)
     try:
         with open(path, "rb") as fh:
             data = tomllib.load(fh)
     except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
-        msg = f"configuration file {path.name} is not valid TOML: {exc}."
-        raise ConfigError(msg) from None
-    unknown = set(data) - {"inputs", "parameters", "run"}
-    if unknown:
         msg = (
-            f"configuration file {path.name}: unknown table(s) {', '.join(sorted(unknown))}. "
-            "Allowed tables: [inputs], [parameters], [run]."
+            f"configuration file {path.name} is not valid TOML: {exc}. Fix that line; text "
+            'values need quotes (path = "file.tif"), numbers do not.'
+        )
+        raise ConfigError(msg) from None
+    except OSError as exc:
+        msg = f"configuration file {path.name} cannot be read: {exc.strerror or exc}."
+        raise ConfigError(msg) from None
+    unknown = set(data) - set(TABLES)
+    if unknown:
+        hints = ", ".join(f"{k!r}{_did_you_mean(k, TABLES)}" for k in sorted(unknown))
+        msg = (
+            f"configuration file {path.name}: unknown table(s) or key(s) outside a table: "
+            f"{hints}. Allowed tables: [inputs], [parameters], [run]."
         )
         raise ConfigError(msg)
+    for table in TABLES:
+        if not isinstance(data.get(table, {}), dict):
+            msg = (
+                f"configuration file {path.name}: '{table}' must be a table ([{table}] on its "
+                f"own line, then name = value lines), got {data[table]!r}."
+            )
+            raise ConfigError(msg)
     cfg = RunConfig(source=path)
     for name, value in data.get("inputs", {}).items():
         _check_input_name(name, f"{path.name} [inputs]")
-        if not isinstance(value, str):
-            msg = f"{path.name} [inputs] {name} must be a file path (text), got {value!r}."
+        if not isinstance(value, str) or not value.strip():
+            msg = (
+                f"{path.name} [inputs] {name} must be a file path in quotes, got {value!r}; "
+                f'e.g. {name} = "{name}.tif".'
+            )
             raise ConfigError(msg)
         cfg.inputs[name] = (path.parent / Path(value).expanduser()).resolve()
-    params = data.get("parameters", {})
-    if not isinstance(params, dict):
-        msg = f"{path.name}: [parameters] must be a table."
-        raise ConfigError(msg)
-    cfg.parameters.update(params)
+    cfg.parameters.update(data.get("parameters", {}))
     for key, value in data.get("run", {}).items():
         cfg.run[key] = _check_run_option(key, value, f"{path.name}")
     return cfg

@@ -281,7 +281,7 @@ def class_polygons(
         arr = arr.astype(np.int32)
     if not valid.any():
         return _empty_frame(crs)
-    if sieve_size > 1:
+    if 1 < sieve_size < arr.size:  # rasterio refuses a sieve as large as the image
         arr = sieve(arr, size=sieve_size, mask=valid, connectivity=4)
 
     # Trace in pixel coordinates: vertices are exact integers there. shapes() puts a

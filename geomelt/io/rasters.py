@@ -4,10 +4,15 @@ The reference grid is the grid of one input (the crustal-thickness raster
 unless the configuration names another). Every other raster is read through a
 :class:`rasterio.vrt.WarpedVRT` onto that grid, so reprojection and
 resampling happen lazily, only for the window being processed.
+
+Before a run, :func:`check_raster_values` pre-scans each input on a reduced
+read and refuses values no run can use (wrong units, wrong sign, undeclared
+fill values, an empty layer) with a message that says how to convert them.
 """
 
 from __future__ import annotations
 
+import dataclasses
 import logging
 import math
 import threading
@@ -27,15 +32,20 @@ from rasterio.vrt import WarpedVRT
 from rasterio.windows import Window
 
 from geomelt.errors import GeomeltWarning, InputLayerError, LayerMismatchError, MissingLayerError
+from geomelt.layers import INPUT_LAYERS
 
 __all__ = [
     "AlignedRaster",
     "RasterGrid",
+    "ValueScan",
+    "check_raster_values",
     "crs_label",
     "open_raster_checked",
     "read_grid",
     "read_reduced",
     "sample_inputs_at",
+    "scan_raster_values",
+    "similar_file_hint",
 ]
 
 log = logging.getLogger(__name__)
@@ -134,7 +144,13 @@ def crs_label(crs: CRS | None) -> str:
         return f"EPSG:{epsg}"
     from pyproj import CRS as ProjCRS
 
-    return ProjCRS.from_wkt(crs.to_wkt()).name
+    pcrs = ProjCRS.from_wkt(crs.to_wkt())
+    if pcrs.name and pcrs.name.lower() != "unknown":
+        return pcrs.name
+    with warnings.catch_warnings():  # the PROJ string is only a label here
+        warnings.simplefilter("ignore", UserWarning)
+        proj4 = pcrs.to_proj4() or ""
+    return " ".join(t for t in proj4.split() if not t.startswith(("+no_defs", "+type"))) or "?"
 
 
 _TRANSFORMERS = threading.local()
@@ -159,23 +175,42 @@ def open_raster_checked(path: Path, layer: str):
     MissingLayerError
         The file does not exist.
     InputLayerError
-        The file exists but GDAL cannot read it as a raster, or it has no CRS.
+        The file exists but GDAL cannot read it as a raster (a folder, a text
+        file, a vector data set, a truncated file).
+    LayerMismatchError
+        The raster has no coordinate reference system.
     """
     path = Path(path)
     if not path.exists():
         msg = (
-            f"input layer '{layer}': file {str(path)!r} does not exist. Check the path in the "
-            "configuration (relative paths are relative to the TOML file) or pass "
-            f"--input {layer}=PATH."
+            f"input layer '{layer}': file {str(path)!r} does not exist{similar_file_hint(path)}. "
+            "Check the path in the configuration (relative paths are relative to the TOML "
+            f"file) or pass --input {layer}=PATH."
         )
         raise MissingLayerError(msg)
+    if path.is_dir():
+        msg = (
+            f"input layer '{layer}': {str(path)!r} is a folder, not a raster file. Give the "
+            f"path of the {layer} GeoTIFF inside it."
+        )
+        raise InputLayerError(msg)
     try:
         ds = rasterio.open(path, "r")
     except RasterioIOError as exc:
-        msg = (
-            f"input layer '{layer}': {str(path)!r} cannot be read as a raster ({exc}). "
-            "Give a GeoTIFF or another raster format GDAL reads."
-        )
+        vector_layers = _vector_layer_names(path)
+        if vector_layers:
+            msg = (
+                f"input layer '{layer}': {str(path)!r} is a vector data set (layers: "
+                f"{', '.join(vector_layers)}), not a raster. Give the {layer} grid as a GeoTIFF "
+                "or another raster format GDAL reads; lines and points belong to the "
+                "plate_boundaries and hotspots inputs."
+            )
+        else:
+            msg = (
+                f"input layer '{layer}': {str(path)!r} cannot be read as a raster "
+                f"({_gdal_reason(exc)}). Give a GeoTIFF or another raster format GDAL reads; "
+                "a truncated or damaged file must be copied or exported again."
+            )
         raise InputLayerError(msg) from None
     if ds.crs is None:
         ds.close()
@@ -191,6 +226,48 @@ def open_raster_checked(path: Path, layer: str):
             stacklevel=2,
         )
     return ds
+
+
+def similar_file_hint(path: Path) -> str:
+    """`` (did you mean 'x.tif'?)`` when the folder holds a file of a similar name, else ``""``."""
+    import difflib
+
+    path = Path(path)
+    try:
+        names = [p.name for p in path.parent.iterdir() if p.is_file()]
+    except OSError:
+        return ""
+    close = [n for n in names if n.lower() == path.name.lower()]
+    close = close or difflib.get_close_matches(path.name, names, n=1, cutoff=0.75)
+    return f" (did you mean {close[0]!r}?)" if close else ""
+
+
+def _gdal_reason(exc: BaseException) -> str:
+    """GDAL's own words for a failure (rasterio keeps them in the chained exception)."""
+    cause = exc.__cause__ or exc.__context__
+    text = str(cause) if cause is not None and str(cause) else str(exc)
+    return text.strip().rstrip(".")
+
+
+def _vector_layer_names(path: Path) -> list[str]:
+    """Layer names when ``path`` opens as a vector data set, else an empty list."""
+    import pyogrio
+
+    try:
+        layers = pyogrio.list_layers(path)
+    except Exception:  # noqa: BLE001 - not a vector data set either
+        return []
+    return [str(name) for name in layers[:, 0]] if len(layers) else []
+
+
+def _read_failure(layer: str, path: Path, exc: BaseException) -> InputLayerError:
+    """The error for a raster that opened but whose cells cannot be read."""
+    msg = (
+        f"input layer '{layer}': reading the cells of {str(path)!r} failed "
+        f"({_gdal_reason(exc)}). The file is probably truncated or damaged: copy or export it "
+        "again and check that it opens in your GIS."
+    )
+    return InputLayerError(msg)
 
 
 def read_grid(path: Path, layer: str) -> RasterGrid:
@@ -214,6 +291,14 @@ def _overlap_fraction(grid: RasterGrid, ds) -> float:
     h = max(0.0, min(gt, top) - max(gb, bottom))
     area = (gr - gl) * (gt - gb)
     return (w * h) / area if area > 0 else 0.0
+
+
+def _no_overlap_error(layer: str, path: Path, grid: RasterGrid) -> LayerMismatchError:
+    msg = (
+        f"input layer '{layer}': {Path(path).name} does not overlap the reference grid "
+        f"({grid.describe()}). Check that it covers the same region and that its CRS is right."
+    )
+    return LayerMismatchError(msg)
 
 
 class AlignedRaster:
@@ -253,12 +338,7 @@ class AlignedRaster:
             frac = _overlap_fraction(grid, self._src)
             if frac <= 0.0:
                 self._src.close()
-                msg = (
-                    f"input layer '{layer}': {self.path.name} does not overlap the reference "
-                    f"grid ({grid.describe()}). Check that it covers the same region and that "
-                    "its CRS is right."
-                )
-                raise LayerMismatchError(msg)
+                raise _no_overlap_error(layer, self.path, grid)
             self.overlap_fraction = frac
             src_nodata = nodata if nodata is not None else np.nan
             if nodata is None and np.dtype(self._src.dtypes[0]).kind != "f":
@@ -287,8 +367,18 @@ class AlignedRaster:
             log.info("%s: %s is already on the reference grid", layer, self.path.name)
 
     def read(self, window: Window | None = None) -> np.ndarray:
-        """Read one window (or the whole grid) as float64 with NaN for nodata."""
-        arr = self._reader.read(1, window=window, masked=False).astype(np.float64, copy=False)
+        """Read one window (or the whole grid) as float64 with NaN for nodata.
+
+        Raises
+        ------
+        InputLayerError
+            GDAL cannot read the cells (a truncated or damaged file).
+        """
+        try:
+            arr = self._reader.read(1, window=window, masked=False)
+        except RasterioIOError as exc:
+            raise _read_failure(self.layer, self.path, exc) from None
+        arr = arr.astype(np.float64, copy=False)
         if not self.reprojected and self._nodata is not None and not np.isnan(self._nodata):
             arr = np.where(arr == self._nodata, np.nan, arr)
         return arr
@@ -386,3 +476,266 @@ def read_reduced(path, max_cells: int = 1500, categorical: bool = False):
         arr = ds.read(1, out_shape=shape, resampling=method)
         transform = ds.transform * Affine.scale(ds.width / shape[1], ds.height / shape[0])
     return arr, transform, factor
+
+
+# ---------------------------------------------------------------------------
+# Value pre-scan: units, signs and empty layers, checked before a run starts
+# ---------------------------------------------------------------------------
+
+SCAN_MAX_CELLS = 256
+"""The value pre-scan reads each raster reduced to at most this many cells a side (nearest
+neighbour, from the overviews when the file has them), so it costs the same on any grid size."""
+
+FILL_VALUES = (-3.4028234663852886e38, -1e20, -99999.0, -32768.0, -32767.0, -9999.0, -999.0)
+FILL_VALUES += (999.0, 9999.0, 32767.0, 65535.0, 99999.0, 1e20, 3.4028234663852886e38)
+"""Fill values common in exported grids. Stored as data (not declared as nodata) and outside
+the layer's plausible range, they are an undeclared nodata value, not a measurement."""
+
+_UNIT_FIXES: dict[str, tuple[tuple[float, str, str], ...]] = {
+    "crustal_thickness_km": (
+        (1e-3, "look like metres; geomelt expects km. Divide by 1000", "A/1000"),
+        (
+            -1.0,
+            "look like Moho heights (negative down); geomelt expects crustal thickness in km, "
+            "positive. Multiply by -1",
+            "-A",
+        ),
+        (
+            -1e-3,
+            "look like Moho heights in metres (negative down); geomelt expects crustal "
+            "thickness in km, positive. Multiply by -0.001",
+            "-A/1000",
+        ),
+    ),
+    "heat_flow_mw_m2": (
+        (1e3, "look like W m-2; geomelt expects mW m-2. Multiply by 1000", "A*1000"),
+    ),
+    "slab_depth_km": (
+        (
+            -1.0,
+            "look like heights (negative down, as Slab2 stores them); geomelt expects depth "
+            "below sea level in km, positive down. Multiply by -1",
+            "-A",
+        ),
+        (1e-3, "look like metres; geomelt expects km. Divide by 1000", "A/1000"),
+        (
+            -1e-3,
+            "look like heights in metres (negative down); geomelt expects depth in km, "
+            "positive down. Multiply by -0.001",
+            "-A/1000",
+        ),
+    ),
+}
+"""Per input layer: (factor that brings the values into the plausible range, diagnosis and
+fix, gdal_calc.py expression)."""
+
+
+@dataclass(frozen=True)
+class ValueScan:
+    """What the value pre-scan of one input raster found (on a reduced sample)."""
+
+    layer: str
+    path: Path
+    shape: tuple[int, int]
+    """Full size of the raster (rows, columns)."""
+    sample_shape: tuple[int, int]
+    """Size of the reduced read the statistics come from."""
+    valid_share: float
+    """Share of the sampled cells holding a value (not nodata, not NaN)."""
+    minimum: float = math.nan
+    maximum: float = math.nan
+    median: float = math.nan
+    outside_share: float = 0.0
+    """Share of the valid sampled cells outside the layer's plausible range."""
+    on_reference_grid: bool = True
+    overlap_share: float = 1.0
+    """Share of the reference grid covered by the raster's footprint."""
+    warnings: tuple[str, ...] = ()
+
+    def describe(self) -> str:
+        """One line for reports: value range, nodata share, plausibility, coverage."""
+        spec = INPUT_LAYERS[self.layer]
+        unit = f" {spec.unit}" if spec.unit else ""
+        parts = [f"{self.shape[1]} x {self.shape[0]} cells"]
+        if self.valid_share > 0:
+            parts.append(
+                f"values {self.minimum:.4g} to {self.maximum:.4g}{unit} (median {self.median:.4g})"
+            )
+        parts.append(f"{100 * (1 - self.valid_share):.1f} % nodata")
+        if spec.plausible_range is not None and self.valid_share > 0:
+            lo, hi = spec.plausible_range
+            parts.append(
+                f"{100 * self.outside_share:.1f} % outside the plausible {lo:g}-{hi:g}{unit}"
+            )
+        if not self.on_reference_grid:
+            parts.append(f"covers {100 * self.overlap_share:.0f} % of the reference grid")
+        if self.sample_shape != self.shape:
+            parts.append(f"sampled on {self.sample_shape[1]} x {self.sample_shape[0]} cells")
+        return ", ".join(parts)
+
+
+def _valid(arr) -> np.ndarray:
+    data = np.ma.getdata(arr).astype(np.float64, copy=False)
+    return data[~np.ma.getmaskarray(arr) & np.isfinite(data)]
+
+
+def _sample_values(ds, layer: str, path: Path) -> tuple[np.ndarray, tuple[int, int], float]:
+    """Valid values of a reduced read, the read's shape and the share of valid cells."""
+    shape = (min(ds.height, SCAN_MAX_CELLS), min(ds.width, SCAN_MAX_CELLS))
+    try:
+        values = _valid(ds.read(1, out_shape=shape, resampling=Resampling.nearest, masked=True))
+        share = values.size / (shape[0] * shape[1])
+        if values.size == 0 and shape != (ds.height, ds.width):
+            # A sparse layer can hide between the sampled cells: read every block before
+            # calling it empty (a full read, but only for layers that are nearly empty).
+            found, n_valid, n_read = [], 0, 0
+            for _, window in ds.block_windows(1):
+                v = _valid(ds.read(1, window=window, masked=True))
+                n_valid += v.size
+                n_read += window.width * window.height
+                if v.size:
+                    found.append(v[:: max(1, v.size // 1024)])
+            if found:
+                values, share = np.concatenate(found), n_valid / n_read
+    except RasterioIOError as exc:
+        raise _read_failure(layer, path, exc) from None
+    return values, shape, share
+
+
+def scan_raster_values(path, layer: str, grid: RasterGrid | None = None) -> ValueScan:
+    """Pre-scan an input raster's values for wrong units, signs and empty layers.
+
+    Reads the raster reduced to at most :data:`SCAN_MAX_CELLS` cells a side
+    (nearest neighbour, overviews used), so the cost does not grow with the
+    grid, and compares the values with the layer's ``plausible_range``
+    (:data:`geomelt.layers.INPUT_LAYERS`). Values outside the range that are
+    not fatal are counted again over the whole grid while a run reads it.
+
+    Parameters
+    ----------
+    path : path-like
+        Raster file.
+    layer : str
+        Input layer name (``crustal_thickness_km``, ``heat_flow_mw_m2``, ``slab_depth_km``).
+    grid : RasterGrid, optional
+        Reference grid: a raster that does not overlap it is refused, and so is
+        a rotated or sheared reference grid.
+
+    Returns
+    -------
+    ValueScan
+        Sample statistics and the non-fatal warnings.
+
+    Raises
+    ------
+    MissingLayerError, InputLayerError
+        Missing or unreadable file; every cell nodata (for a layer that must
+        have values); an undeclared fill value such as -9999 stored as data;
+        most values outside the plausible range (the message names the likely
+        unit mistake and the conversion); negative values of a positive quantity.
+    LayerMismatchError
+        No CRS, or no overlap with ``grid``.
+    """
+    path = Path(path)
+    spec = INPUT_LAYERS[layer]
+    unit = f" {spec.unit}" if spec.unit else ""
+    where = f"input layer '{layer}' ({path.name})"
+    with open_raster_checked(path, layer) as ds:
+        values, sample_shape, valid_share = _sample_values(ds, layer, path)
+        declared = ds.nodata
+        shape = (ds.height, ds.width)
+        on_grid, overlap = True, 1.0
+        if grid is not None and not RasterGrid.from_dataset(ds).same_as(grid):
+            on_grid, overlap = False, _overlap_fraction(grid, ds)
+            if overlap <= 0.0:
+                raise _no_overlap_error(layer, path, grid)
+        if grid is not None and on_grid and (grid.transform.b or grid.transform.d):
+            msg = (
+                f"input layer '{layer}' ({path.name}) defines the reference grid but its grid "
+                "is rotated or sheared; geomelt's outputs need a north-up grid. Warp it first "
+                f"(gdalwarp {path.name} {path.stem}_northup.tif) and use the result."
+            )
+            raise InputLayerError(msg)
+    scan = ValueScan(
+        layer,
+        path,
+        shape,
+        sample_shape,
+        valid_share,
+        on_reference_grid=on_grid,
+        overlap_share=overlap,
+    )
+    if values.size == 0:
+        if spec.sparse:
+            note = (
+                f"{where}: every cell is nodata, so the layer contributes nothing; leave it out "
+                "if the region has none, or check its nodata value"
+            )
+            return dataclasses.replace(scan, warnings=(note,))
+        nodata = "NaN" if declared is None or np.isnan(declared) else f"{declared:g}"
+        msg = (
+            f"{where}: every cell is nodata (nodata value {nodata}), so nothing can be "
+            "computed. Check that this is the right file and that its nodata value is right "
+            "(gdal_edit.py -a_nodata VALUE FILE, or -unsetnodata)."
+        )
+        raise InputLayerError(msg)
+    lo_v, hi_v, median = float(values.min()), float(values.max()), float(np.median(values))
+    lo, hi = spec.plausible_range or (-math.inf, math.inf)
+    outside = (values < lo) | (values > hi)
+    for fill in FILL_VALUES:
+        if not lo <= fill <= hi and np.isclose(values, fill, rtol=1e-6, atol=0.0).any():
+            msg = (
+                f"{where}: cells holding {fill:g} look like an undeclared nodata value, not "
+                f"data. Declare it (gdal_edit.py -a_nodata {fill:g} {path.name}) and run again."
+            )
+            raise InputLayerError(msg)
+    quantity = spec.description.split(" (")[0].split(",")[0].lower()
+    if not lo <= median <= hi:
+        span = f"values {lo_v:.6g} to {hi_v:.6g} (median {median:.6g})"
+        for factor, diagnosis, calc in _UNIT_FIXES.get(layer, ()):
+            if lo <= median * factor <= hi:
+                msg = (
+                    f"{where}: {span} {diagnosis} (e.g. gdal_calc.py "
+                    f'-A {path.name} --calc="{calc}" --outfile={path.stem}_converted.tif, or '
+                    "the raster calculator of your GIS) and point the configuration at the "
+                    "converted file."
+                )
+                raise InputLayerError(msg)
+        msg = (
+            f"{where}: {span} lie mostly outside the plausible range {lo:g}-{hi:g}{unit} of "
+            f"{quantity}. Check that this is the right file and that its values are in "
+            f"{spec.unit or 'the unit the layer name carries'}."
+        )
+        raise InputLayerError(msg)
+    if lo > 0 and lo_v < 0:
+        msg = (
+            f"{where}: {int((values < 0).sum())} of {values.size} sampled cells are negative "
+            f"(down to {lo_v:.6g}{unit}), but {quantity} is positive. Set them to nodata or "
+            "fix their sign, e.g. gdal_calc.py "
+            f'-A {path.name} --calc="where(A<0, nan, A)" --outfile={path.stem}_fixed.tif.'
+        )
+        raise InputLayerError(msg)
+    notes = []
+    zeros = float(np.mean(values == 0.0))
+    if lo > 0 and zeros >= 0.01:
+        notes.append(
+            f"{where}: {100 * zeros:.0f} % of the sampled cells are exactly 0{unit}; if 0 "
+            f"marks missing data, declare it (gdal_edit.py -a_nodata 0 {path.name})"
+        )
+    return dataclasses.replace(
+        scan,
+        minimum=lo_v,
+        maximum=hi_v,
+        median=median,
+        outside_share=float(outside.mean()),
+        warnings=tuple(notes),
+    )
+
+
+def check_raster_values(path, layer: str, grid: RasterGrid | None = None) -> list[str]:
+    """Pre-scan an input raster's values (:func:`scan_raster_values`); return its warnings.
+
+    Raises :class:`~geomelt.errors.InputLayerError` (or
+    :class:`~geomelt.errors.LayerMismatchError`) for values no run can use.
+    """
+    return list(scan_raster_values(path, layer, grid).warnings)

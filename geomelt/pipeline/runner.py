@@ -32,6 +32,7 @@ from geomelt.algorithms import Algorithm, algorithm_chain
 from geomelt.classes import SCHEMES
 from geomelt.errors import (
     GeomeltIOError,
+    GeomeltWarning,
     MissingLayerError,
     OutputExistsError,
     ParameterError,
@@ -39,7 +40,7 @@ from geomelt.errors import (
 from geomelt.io.config import RunConfig
 from geomelt.io.geopackage import write_run_metadata
 from geomelt.io.geotiff import GeoTiffWriter
-from geomelt.io.rasters import AlignedRaster, RasterGrid, read_grid
+from geomelt.io.rasters import AlignedRaster, RasterGrid, check_raster_values, read_grid
 from geomelt.io.vectors import read_hotspots, read_plate_boundaries
 from geomelt.layers import GRID_LAYERS, INPUT_LAYERS, OutputLayer
 from geomelt.parameters import ParameterSet
@@ -48,7 +49,15 @@ from geomelt.pipeline.engines import iterate_windows
 from geomelt.tectonics.boundaries import BoundarySet
 from geomelt.tectonics.hotspots import HotspotSet
 
-__all__ = ["OutputStats", "RunPlan", "RunResult", "execute_run", "plan_run", "resolve_chain"]
+__all__ = [
+    "OutputStats",
+    "RunPlan",
+    "RunResult",
+    "check_output_location",
+    "execute_run",
+    "plan_run",
+    "resolve_chain",
+]
 
 log = logging.getLogger(__name__)
 
@@ -116,6 +125,8 @@ class RunPlan:
     """Grid-derived layers (cell longitude/latitude) some algorithm reads."""
     frames: dict[str, Any] = field(default_factory=dict)
     """Vector inputs as read (GeoDataFrames), for the vector products and maps."""
+    warnings: list[str] = field(default_factory=list)
+    """Problems found in the inputs that a run can live with (reported with the run's)."""
 
     def as_dict(self) -> dict[str, Any]:
         """JSON-ready summary of the plan."""
@@ -132,6 +143,7 @@ class RunPlan:
             "outputs": [f"{o.name}.tif" for _, o in self.outputs if o.written] + [RESULTS_GPKG],
             "block_size": self.block_size,
             "notes": self.notes,
+            "warnings": self.warnings,
         }
 
 
@@ -177,11 +189,25 @@ def resolve_chain(
 def plan_run(config: RunConfig, algorithm_ids: list[str] | None = None) -> RunPlan:
     """Resolve and check a run without writing anything.
 
+    Problems in the inputs that a run can live with end in ``RunPlan.warnings``.
+
     Raises
     ------
     ParameterError, MissingLayerError, InputLayerError, LayerMismatchError
         With a message naming the parameter or layer and the fix.
     """
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", GeomeltWarning)
+        plan = _plan_run(config, algorithm_ids)
+    for w in caught:
+        if not issubclass(w.category, GeomeltWarning):
+            warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
+        elif str(w.message) not in plan.warnings:
+            plan.warnings.append(str(w.message))
+    return plan
+
+
+def _plan_run(config: RunConfig, algorithm_ids: list[str] | None) -> RunPlan:
     algorithms, params = resolve_chain(config, algorithm_ids)
 
     needed: set[str] = set()
@@ -212,6 +238,9 @@ def plan_run(config: RunConfig, algorithm_ids: list[str] | None = None) -> RunPl
                 raster_inputs[name] = path
         else:
             vector_inputs[name] = path
+    value_warnings: list[str] = []
+    for name, path in sorted(raster_inputs.items()):
+        value_warnings += check_raster_values(path, name, grid)
     for name, path in sorted(raster_inputs.items()):
         if name == ref_name:
             continue
@@ -259,6 +288,7 @@ def plan_run(config: RunConfig, algorithm_ids: list[str] | None = None) -> RunPl
         vectors=vectors,
         grid_layers=grid_layers,
         frames=frames,
+        warnings=value_warnings,
     )
 
 
@@ -270,8 +300,18 @@ def _sha256(path: Path) -> str:
     return h.hexdigest()
 
 
-def _prepare_out_dir(out_dir: Path, overwrite: bool, plan: RunPlan) -> Path:
-    out_dir = out_dir.expanduser().resolve()
+def check_output_location(out_dir, overwrite: bool, plan: RunPlan) -> Path:
+    """Refuse an output folder a run must not write to, writing nothing; return it resolved.
+
+    Raises
+    ------
+    OutputExistsError
+        It is a file, holds files and ``overwrite`` is not set, or an output
+        would replace an input.
+    GeomeltIOError
+        It cannot be created (a parent is a file or is not writable).
+    """
+    out_dir = Path(out_dir).expanduser().resolve()
     if out_dir.exists() and not out_dir.is_dir():
         msg = f"output location {str(out_dir)!r} exists and is not a folder; choose a folder."
         raise OutputExistsError(msg)
@@ -292,6 +332,21 @@ def _prepare_out_dir(out_dir: Path, overwrite: bool, plan: RunPlan) -> Path:
                 "folder or pass --overwrite to replace geomelt's outputs in it."
             )
             raise OutputExistsError(msg)
+    parent = out_dir
+    while not parent.exists():
+        parent = parent.parent
+    if not parent.is_dir() or not os.access(parent, os.W_OK | os.X_OK):
+        why = "is a file, not a folder" if not parent.is_dir() else "is not writable"
+        msg = (
+            f"cannot create output folder {str(out_dir)!r}: {str(parent)!r} {why}. Choose "
+            "an output folder in a writable location."
+        )
+        raise GeomeltIOError(msg)
+    return out_dir
+
+
+def _prepare_out_dir(out_dir: Path, overwrite: bool, plan: RunPlan) -> Path:
+    out_dir = check_output_location(out_dir, overwrite, plan)
     try:
         out_dir.mkdir(parents=True, exist_ok=True)
         staging = out_dir / STAGING_DIR
@@ -341,12 +396,16 @@ def execute_run(
     t0 = time.perf_counter()
     out_dir = Path(out_dir).expanduser().resolve()
     staging = _prepare_out_dir(out_dir, overwrite, plan)
+    # Finished files wait in ``ready`` until every output is done, then all move into place
+    # together: a failed or killed run leaves no output of its own under a final name.
+    ready = staging / "ready"
+    ready.mkdir()
     grid = plan.grid
     input_meta = {
         name: {"file": path.name, "sha256": _sha256(path)}
         for name, path in sorted(plan.config.inputs.items())
     }
-    run_warnings: list[str] = []
+    run_warnings: list[str] = list(plan.warnings)
     written = [(alg, o) for alg, o in plan.outputs if o.written]
     stats = {o.name: OutputStats(o.name, o.unit) for _, o in written}
     writers: dict[str, GeoTiffWriter] = {}
@@ -368,7 +427,7 @@ def execute_run(
             for alg, out in written:
                 scheme = SCHEMES[out.scheme] if out.scheme else None
                 writers[out.name] = GeoTiffWriter(
-                    out_dir / f"{out.name}.tif",
+                    ready / f"{out.name}.tif",
                     staging,
                     grid,
                     dtype=out.dtype,
@@ -418,7 +477,7 @@ def execute_run(
                 files.append(w.finish())
                 files.extend(w.sidecars)
             writers.clear()
-        seen: set[str] = set()
+        seen: set[str] = set(run_warnings)
         for w in caught:
             text = str(w.message)
             if text not in seen:
@@ -435,23 +494,23 @@ def execute_run(
                     f"{lo:g}-{hi:g} {INPUT_LAYERS[name].unit}; check its units"
                 )
         gpkg_stage = staging / RESULTS_GPKG
-        if (out_dir / "setting.tif").exists() and "setting" in stats:
-            n = products.write_setting_polygons(gpkg_stage, out_dir)
+        if (ready / "setting.tif").exists() and "setting" in stats:
+            n = products.write_setting_polygons(gpkg_stage, ready)
             log.info("settings: %d polygon(s)", n)
         if "plate_boundaries" in plan.frames:
             products.write_boundaries_layer(gpkg_stage, plan.frames["plate_boundaries"])
         write_run_metadata(gpkg_stage, _metadata_records(plan, input_meta, stats, run_warnings))
         pairs = products.write_quicklooks(
             staging,
-            out_dir,
+            ready,
             boundaries=plan.frames.get("plate_boundaries"),
             hotspots=plan.frames.get("hotspots"),
         )
         files.extend(products.move_into_place(pairs))
-        final_gpkg = out_dir / RESULTS_GPKG
-        os.replace(gpkg_stage, final_gpkg)
-        files.append(final_gpkg)
-        _replace_manifest(out_dir, files)
+        os.replace(gpkg_stage, ready / RESULTS_GPKG)
+        files.append(ready / RESULTS_GPKG)
+        files = products.move_into_place([(p, out_dir / p.relative_to(ready)) for p in files])
+        _replace_manifest(out_dir, files, keep={p.resolve() for p in plan.config.inputs.values()})
     except BaseException:
         for reader in readers.values():
             reader.close()
@@ -478,8 +537,11 @@ def _progress_bar(total: int, enabled: bool):
     return tqdm(total=total, unit="window", desc="geomelt", disable=not enabled, leave=False)
 
 
-def _replace_manifest(out_dir: Path, files: list[Path]) -> None:
-    """Record what this run wrote; remove outputs of an earlier run that this run did not write."""
+def _replace_manifest(
+    out_dir: Path, files: list[Path], keep: frozenset | set = frozenset()
+) -> None:
+    """Record what this run wrote; remove outputs of an earlier run that this run did not write
+    (never a file in ``keep``: the run's inputs)."""
     manifest = out_dir / MANIFEST
     names = sorted(p.relative_to(out_dir).as_posix() for p in files)
     if manifest.exists():
@@ -490,7 +552,7 @@ def _replace_manifest(out_dir: Path, files: list[Path]) -> None:
         for stale in set(old) - set(names):
             target = (out_dir / stale).resolve()
             # Only files inside the output folder that an earlier run listed.
-            if isinstance(stale, str) and out_dir in target.parents:
+            if isinstance(stale, str) and out_dir in target.parents and target not in keep:
                 target.unlink(missing_ok=True)
     tmp = out_dir / (MANIFEST + ".tmp")
     tmp.write_text(json.dumps({"producer": "geomelt", "files": names}, indent=1))
