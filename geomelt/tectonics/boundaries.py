@@ -92,6 +92,9 @@ _GEOD = Geod(ellps="WGS84")
 _A_KM = _GEOD.a / 1000.0  # WGS84 semi-major axis, km
 _F = _GEOD.f  # WGS84 flattening
 _B_KM = _A_KM * (1.0 - _F)  # semi-minor axis, km
+# Lambert's (1942) distance is a * sigma * (1 - k f) with 0 <= k <= 1 + sigma^2 / 12:
+# an angle sigma on the auxiliary sphere spans at least a (1 - _F_LOW) sigma.
+_F_LOW = 1.02 * _F
 
 DEFAULT_MAX_DISTANCE_KM = 1500.0
 """Default reach of :func:`boundary_fields`, km: beyond it a boundary counts as absent."""
@@ -132,8 +135,9 @@ def suggest_tile_km(cell_size_km: float) -> float:
     return float(min(max(24.0 * float(cell_size_km), 8.0), 256.0))
 
 
-_CHUNK_CELLS = 1 << 17
-"""Cells evaluated together: bounds the working memory of one call (about 60 MB)."""
+_CHUNK_CELLS = 1 << 16
+"""Cells evaluated together: bounds the working memory of a call (about 30 MB) and
+keeps temporaries in cache (measured fastest among 2^14 to 2^17)."""
 
 
 @dataclass(frozen=True)
@@ -324,62 +328,36 @@ def _foot_points(p: np.ndarray, table: np.ndarray) -> np.ndarray:
     return np.where(inside, _normalise(p - s * n), end)
 
 
-def _nearest_point_terms(pc: np.ndarray, index: _TypeIndex, node: np.ndarray, side: bool):
-    """What Lambert's formula and the side test need about the nearest chord point.
+def _left_of_line(pc: np.ndarray, index: _TypeIndex, node: np.ndarray) -> np.ndarray:
+    """Positive where each cell lies left of its nearest line (walking as digitised).
 
     Parameters
     ----------
     pc : ndarray (3, n)
         Cells on the auxiliary sphere (rows x, y, z).
     index, node : the type's strip trees and the chosen node of each cell.
-    side : bool
-        Also return the side test.
 
     Returns
     -------
-    half_chord2 : ndarray
-        ``sin^2(sigma / 2)`` between the cell and its foot on the chord.
-    z_foot : ndarray
-        ``sin(beta)`` of the foot.
-    left : ndarray or None
-        Positive where the cell lies left of the line (walking in the
-        digitised direction): ``p . n`` with the chord's left normal when the
-        foot is inside the arc, else with the pseudo-normal of the nearer end
-        (Bærentzen & Aanæs 2005).
+    ndarray
+        ``p . n``: with the chord's left normal ``n`` when the foot of the
+        perpendicular is inside the arc, else with the pseudo-normal of the
+        nearer end (Bærentzen & Aanæs 2005). Its sign is that of the cross
+        product of the line direction and the vector from the foot to the
+        cell in the plane tangent at the foot.
     """
     tt = index.table_t
     px, py, pz = pc
-    nx, ny, nz = tt[0][node], tt[1][node], tt[2][node]
-    ax, ay, az = tt[3][node], tt[4][node], tt[5][node]
-    ex, ey, ez = tt[6][node], tt[7][node], tt[8][node]
+    s = px * tt[0][node] + py * tt[1][node] + pz * tt[2][node]
+    x = px * tt[3][node] + py * tt[4][node] + pz * tt[5][node]
+    y = px * tt[6][node] + py * tt[7][node] + pz * tt[8][node]
     c, sn = tt[9][node], tt[10][node]
-    s = px * nx + py * ny + pz * nz
-    x = px * ax + py * ay + pz * az
-    y = px * ex + py * ey + pz * ez
-    pb = c * x + sn * y
     inside = (y > 0.0) & (sn * x - c * y > 0.0)
-    at_a = x >= pb
-    # Nearer end of the chord (A, or B = cos(theta) A + sin(theta) E).
-    qx = np.where(at_a, ax, c * ax + sn * ex)
-    qy = np.where(at_a, ay, c * ay + sn * ey)
-    qz = np.where(at_a, az, c * az + sn * ez)
-    half_end = 0.25 * ((px - qx) ** 2 + (py - qy) ** 2 + (pz - qz) ** 2)
-    # Foot inside the arc: p minus its component along n, normalised;
-    # chord^2 = 2 - 2 sqrt(1 - s^2) = 2 s^2 / (1 + sqrt(1 - s^2)).
-    r = np.sqrt(np.maximum(1.0 - s * s, 0.0))
-    half_chord2 = np.where(inside, 0.5 * s * s / (1.0 + r), half_end)
-    z_foot = np.where(inside, (pz - s * nz) / np.maximum(r, 1e-300), qz)
-    left = None
-    if side:
-        na = index.normal_a[node]
-        nb = index.normal_b[node]
-        end_dot = np.where(
-            at_a,
-            px * na[:, 0] + py * na[:, 1] + pz * na[:, 2],
-            px * nb[:, 0] + py * nb[:, 1] + pz * nb[:, 2],
-        )
-        left = np.where(inside, s, end_dot)
-    return half_chord2, z_foot, left
+    end_normal = np.where(
+        (x >= c * x + sn * y)[:, None], index.normal_a[node], index.normal_b[node]
+    )
+    end_dot = px * end_normal[:, 0] + py * end_normal[:, 1] + pz * end_normal[:, 2]
+    return np.where(inside, s, end_dot)
 
 
 def _lambert_distance_km(half_chord2: np.ndarray, z1: np.ndarray, z2: np.ndarray) -> np.ndarray:
@@ -398,10 +376,12 @@ def _lambert_distance_km(half_chord2: np.ndarray, z1: np.ndarray, z2: np.ndarray
     the points meet. Relative error against ``pyproj.Geod`` (Karney 2013):
     below 2e-6 from 1 m to 5000 km.
     """
-    h2 = np.minimum(half_chord2, 1.0)
-    sigma = 2.0 * np.arcsin(np.sqrt(h2))
-    sin_sigma = np.sin(sigma)
-    x_term = (sigma - sin_sigma) * (0.5 * (z1 + z2)) ** 2 / np.maximum(1.0 - h2, 1e-300)
+    h2 = np.clip(half_chord2, 0.0, 1.0)
+    sin_half = np.sqrt(h2)
+    cos2_half = 1.0 - h2
+    sigma = 2.0 * np.arcsin(sin_half)
+    sin_sigma = 2.0 * sin_half * np.sqrt(cos2_half)
+    x_term = (sigma - sin_sigma) * (0.5 * (z1 + z2)) ** 2 / np.maximum(cos2_half, 1e-300)
     y_term = (sigma + sin_sigma) * (0.5 * (z2 - z1)) ** 2 / np.where(h2 > 0.0, h2, 1.0)
     return _A_KM * (sigma - 0.5 * _F * (x_term + y_term))
 
@@ -562,17 +542,19 @@ def _part_trees(vertices: list[np.ndarray], features: list[int]) -> dict:
     end = np.concatenate(ends)
     part = np.concatenate(parts)
     table = _chord_table(v_all[start], v_all[end])
-    # Side pseudo-normals at the chord ends: the normalised sum of the
-    # normals of this node and of its neighbour on the same level of the same
-    # line (the 2-D form of the pseudo-normal of Bærentzen & Aanæs 2005).
-    normal = table[:, _KN]
-    normal_a = normal.copy()
-    normal_b = normal.copy()
-    level_of = np.concatenate([np.full(len(s), i) for i, s in enumerate(starts)])
-    idx = np.flatnonzero((part[1:] == part[:-1]) & (level_of[1:] == level_of[:-1])) + 1
-    joint = _normalise(normal[idx] + normal[idx - 1])
-    normal_a[idx] = joint
-    normal_b[idx - 1] = joint
+    # Side pseudo-normals at every vertex, from the segments (the leaves) that
+    # meet there: the normalised sum of their left normals (the 2-D form of
+    # the pseudo-normal of Bærentzen & Aanæs 2005); at a line's ends, the end
+    # segment's normal, which extends the line. A node's chord ends are
+    # vertices of its line, so it takes the pseudo-normals of those vertices.
+    seg_normal = table[: int(counts.sum()), _KN]  # level 0 comes first
+    seg_start = np.repeat(v_off, counts) + _ranges(counts)
+    vert_normal = np.zeros((len(v_all), 3))
+    vert_normal[seg_start] += seg_normal
+    vert_normal[seg_start + 1] += seg_normal
+    vert_normal = _normalise(vert_normal)
+    normal_a = vert_normal[start]
+    normal_b = vert_normal[end]
     return {
         "table": table,
         "width": np.concatenate(widths),
@@ -696,8 +678,8 @@ def _tile_frontier(
         the angle from the tile centre to their chord, then by node: the
         order depends only on the tile.
     grad, level : ndarray (3, k) and (k,)
-        Per candidate, a lower bound of its chord distance (rad) for a cell
-        ``P`` of the tile: ``level + grad . (P - c)``.
+        Per candidate, a lower bound of the WGS84 distance (km) from a cell
+        ``P`` of the tile to the foot on its chord: ``level + grad . (P - c)``.
     """
     n_tiles = len(centres)
     ub_tile = np.full(n_tiles, reach_rad)
@@ -712,7 +694,7 @@ def _tile_frontier(
         first = np.flatnonzero(np.concatenate([[True], pt[1:] != pt[:-1]]))
         tiles = pt[first]
         ub_tile[tiles] = np.minimum(ub_tile[tiles], np.minimum.reduceat(d + slack, first))
-        keep = lb <= ub_tile[pt] * (1.0 + 1e-12) + 1e-15
+        keep = (1.0 - _F_LOW) * lb <= ub_tile[pt] * (1.0 + 1e-12) + 1e-15
         n_child = index.child_ptr[pn + 1] - index.child_ptr[pn]
         resolved = index.resolvable[pn] & (
             (n_child == 0) | (index.width[pn] <= np.maximum(rtol * lb, atol_rad))
@@ -730,7 +712,7 @@ def _tile_frontier(
     n = np.concatenate(fin_n)
     d = np.concatenate(fin_d)
     lb = np.concatenate(fin_lb)
-    keep = lb <= ub_tile[t] * (1.0 + 1e-12) + 1e-15
+    keep = (1.0 - _F_LOW) * lb <= ub_tile[t] * (1.0 + 1e-12) + 1e-15
     order = np.flatnonzero(keep)
     order = order[np.lexsort((n[order], d[order], t[order]))]
     t, n, d = t[order], n[order], d[order]
@@ -758,21 +740,67 @@ def _tile_frontier(
     far = usable & (d > 2.0 * rho)
     q = np.where(far, rho * rho / (2.0 * np.maximum(d - rho, 1e-300)), 2.0 * rho)
     q = q + rho**3 + 1e-12
+    # On the ellipsoid, Lambert's (1942) distance is a sigma (1 - k f) with
+    # k = (dz / |D|)^2 (sigma + sin sigma) / (2 sigma) + X / (2 sigma), D the
+    # chord vector from the cell to the foot: k <= (dz / |D|)^2 + sigma^2 / 10.
+    # The chord direction is that of -g to within the turn of the direction to
+    # a convex set over the tile, rho / (d - rho), the transport of g from c
+    # to P, rho, and half the angle, sigma / 2: this bounds dz / |D|, so that
+    # lower bounds on the ellipsoid shrink by (1 - k f) rather than (1 - f).
+    reach = d + rho
+    turn = np.where(far, rho / np.maximum(d - rho, 1e-300) + rho + 0.5 * reach, 2.0)
+    k_f = np.minimum((np.abs(grad[:, 2]) + turn) ** 2, 1.0) + reach * reach / 10.0
+    shrink = 1.0 - _F * k_f
     # A candidate is dropped for the whole tile when its lower bound exceeds
     # the upper bound of one of the tile's three nearest candidates
-    # everywhere in the tile: min over P of (g_e - g_k) . (P - c) >= -rho |g_e - g_k|.
+    # everywhere in the tile (the least of (s_e g_e - g_k) . (P - c) over the
+    # tile is -rho |s_e g_e - g_k|).
     count = np.diff(ptr)
     drop = np.zeros(len(n), dtype=bool)
     for j in range(3):
         has_ref = count[t] > j
         k = np.where(has_ref, ptr[t] + j, 0)
-        dg = grad - grad[k]
+        dg = shrink[:, None] * grad - grad[k]
         spread = rho * np.sqrt(_dot(dg, dg))
-        drop |= has_ref & (level - spread > d[k] + q[k] + 1e-12)
+        drop |= has_ref & (shrink * level - spread > d[k] + q[k] + 1e-12)
     keep = ~drop
-    t, n, grad, level = t[keep], n[keep], grad[keep], level[keep]
+    scale = _A_KM * shrink[keep]
+    grad_km = grad[keep] * scale[:, None]
+    level_km = level[keep] * scale
+    t, n = t[keep], n[keep]
     ptr = np.concatenate([[0], np.cumsum(np.bincount(t, minlength=n_tiles))])
-    return ptr, n, np.ascontiguousarray(grad.T), level
+    return ptr, n, np.ascontiguousarray(grad_km.T), level_km
+
+
+def _chord_distance_km(
+    x0: np.ndarray, y0: np.ndarray, z0: np.ndarray, tt: np.ndarray, nid: np.ndarray
+) -> np.ndarray:
+    """WGS84 distance (km) from cells (x0, y0, z0 on the auxiliary sphere) to the
+    foot of the perpendicular on the chords ``nid`` of the kernel table ``tt``
+    (11, m); see :func:`_arc_distance_rad` and :func:`_lambert_distance_km`."""
+    nz, az, ez = tt[2][nid], tt[5][nid], tt[8][nid]
+    s = x0 * tt[0][nid]
+    s += y0 * tt[1][nid]
+    s += z0 * nz
+    x = x0 * tt[3][nid]
+    x += y0 * tt[4][nid]
+    x += z0 * az
+    y = x0 * tt[6][nid]
+    y += y0 * tt[7][nid]
+    y += z0 * ez
+    c = tt[9][nid]
+    sn = tt[10][nid]
+    pb = c * x
+    pb += sn * y
+    inside = (y > 0.0) & (sn * x - c * y > 0.0)
+    r = 1.0 - s * s
+    np.sqrt(np.maximum(r, 0.0, out=r), out=r)
+    # sin^2(sigma / 2) to the foot: exact inside the arc, from the cosine at
+    # an end (to ~1e-8 rad there); sin(beta) of the foot.
+    half_chord2 = np.where(inside, 0.5 * s * s / (1.0 + r), 0.5 - 0.5 * np.maximum(x, pb))
+    z_end = np.where(x >= pb, az, c * az + sn * ez)
+    z_foot = np.where(inside, (z0 - s * nz) / np.maximum(r, 1e-300), z_end)
+    return _lambert_distance_km(half_chord2, z0, z_foot)
 
 
 def _nearest_nodes(
@@ -781,8 +809,8 @@ def _nearest_nodes(
     cell_tile: np.ndarray,
     offset: np.ndarray,
     frontier: tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray],
-) -> np.ndarray:
-    """Node of the nearest candidate chord of each cell (-1 where none).
+) -> tuple[np.ndarray, np.ndarray]:
+    """Nearest candidate chord of each cell and its ellipsoidal distance.
 
     Parameters
     ----------
@@ -796,14 +824,23 @@ def _nearest_nodes(
     frontier : (ptr, nodes, grad, level)
         Candidates of each tile from :func:`_tile_frontier`.
 
+    Returns
+    -------
+    node : ndarray
+        Node of the nearest chord, -1 where the tile has no candidate.
+    distance_km : ndarray
+        WGS84 distance (Lambert 1942) to the foot on that chord, km; inf
+        where none.
+
     Notes
     -----
-    Candidates are compared by the cosine of their angular distance:
-    ``sqrt(1 - (p.n)^2)`` when the foot falls inside the arc, else the
-    larger of ``p.A`` and ``p.B``. A candidate is skipped for a cell when its
-    linear lower bound exceeds the best distance found so far. Candidates
-    come nearest-to-the-tile first and ties keep the first, so the answer
-    depends only on the cell and its tile.
+    Candidates are compared by their distance on the ellipsoid (the nearest
+    point on the auxiliary sphere is not always the nearest on the
+    ellipsoid: distances there differ by up to the flattening, 0.34 %,
+    with direction). A candidate is skipped for a cell when its linear lower
+    bound (km, from :func:`_tile_frontier`) already exceeds the best
+    distance. Candidates come nearest-to-the-tile first and ties keep the
+    first, so the answer depends only on the cell and its tile.
     """
     ptr, nodes, grad, level = frontier
     count = (ptr[1:] - ptr[:-1])[cell_tile]
@@ -811,51 +848,47 @@ def _nearest_nodes(
     best = np.full(n_cells, -1, dtype=np.int64)
     k_max = int(count.max()) if n_cells else 0
     if k_max == 0:
-        return best
+        return best, np.full(n_cells, np.inf)
     # Cells with the most candidates first: slot j then covers a prefix.
     key = (k_max - count).astype(np.uint16 if k_max < 65535 else np.int64)
     order = np.argsort(key, kind="stable")
     n_active = np.bincount(count, minlength=k_max + 1)[::-1].cumsum()[::-1]
     px, py, pz = pc[0][order], pc[1][order], pc[2][order]
-    # The bounds are screened in float32 (half the memory traffic); 1e-6 rad
-    # (6 m) of margin covers its rounding.
+    # The bounds are screened in float32 (half the memory traffic); 1 m of
+    # margin covers its rounding.
     ox, oy, oz = (offset[k][order].astype(np.float32) for k in range(3))
     gx, gy, gz = grad.astype(np.float32)
-    level = (level - 1e-6).astype(np.float32)
+    level = (level - 1e-3).astype(np.float32)
     base = ptr[cell_tile[order]]
     tt = index.table_t
-    best_cos = np.full(n_cells, -np.inf)
-    # Angle of the best candidate, rounded up (arccos loses ~1e-8 rad near 0).
-    best_angle = np.full(n_cells, np.inf, dtype=np.float32)
+    best_km = np.full(n_cells, np.inf)
+    best_bound = np.full(n_cells, np.inf, dtype=np.float32)
     best_sorted = np.full(n_cells, -1, dtype=np.int64)
     for j in range(k_max):
         m = int(n_active[j + 1])
         entry = base[:m] + j
         if j == 0:
-            cells = np.arange(m)
-        else:
-            lower = level[entry] + gx[entry] * ox[:m] + gy[entry] * oy[:m] + gz[entry] * oz[:m]
-            cells = np.flatnonzero(lower <= best_angle[:m])
-            if cells.size == 0:
-                continue
-            entry = entry[cells]
-        nid = nodes[entry]
-        x0, y0, z0 = px[cells], py[cells], pz[cells]
-        s = x0 * tt[0][nid] + y0 * tt[1][nid] + z0 * tt[2][nid]
-        x = x0 * tt[3][nid] + y0 * tt[4][nid] + z0 * tt[5][nid]
-        y = x0 * tt[6][nid] + y0 * tt[7][nid] + z0 * tt[8][nid]
-        c = tt[9][nid]
-        sn = tt[10][nid]
-        pb = c * x + sn * y
-        inside = (y > 0.0) & (sn * x - c * y > 0.0)
-        cos_d = np.where(inside, np.sqrt(np.maximum(1.0 - s * s, 0.0)), np.maximum(x, pb))
-        better = cos_d > best_cos[cells]
+            nid = nodes[entry]
+            dist_km = _chord_distance_km(px[:m], py[:m], pz[:m], tt, nid)
+            best_km[:m] = dist_km
+            best_bound[:m] = dist_km + 1e-3
+            best_sorted[:m] = nid
+            continue
+        lower = level[entry] + gx[entry] * ox[:m] + gy[entry] * oy[:m] + gz[entry] * oz[:m]
+        cells = np.flatnonzero(lower <= best_bound[:m])
+        if cells.size == 0:
+            continue
+        nid = nodes[entry[cells]]
+        dist_km = _chord_distance_km(px[cells], py[cells], pz[cells], tt, nid)
+        better = dist_km < best_km[cells]
         won = cells[better]
-        best_cos[won] = cos_d[better]
-        best_angle[won] = np.arccos(np.minimum(cos_d[better], 1.0)) + 2e-8
+        best_km[won] = dist_km[better]
+        best_bound[won] = dist_km[better] + 1e-3
         best_sorted[won] = nid[better]
     best[order] = best_sorted
-    return best
+    out_km = np.full(n_cells, np.inf)
+    out_km[order] = best_km
+    return best, out_km
 
 
 # ---------------------------------------------------------------------------
@@ -1269,7 +1302,8 @@ def boundary_fields(
     }
     flat = {name: arr.reshape(-1) for name, arr in out.items()}
     lon_f, lat_f = lon.reshape(-1), lat.reshape(-1)
-    reach_rad = min(max_distance_km / _B_KM * (1.0 + 1e-9), math.pi)
+    # Candidates are kept while a (1 - f) times their angle may be within reach.
+    reach_rad = min(max_distance_km / _A_KM * (1.0 + 1e-9), math.pi)
     atol_rad = boundaries.atol_km / _A_KM
     n_face = _tiles_per_face(boundaries.tile_km)
     for lo in range(0, lon_f.size, _CHUNK_CELLS):
@@ -1290,22 +1324,16 @@ def boundary_fields(
             if index is None:
                 continue
             frontier = _tile_frontier(index, centres, radii, reach_rad, boundaries.rtol, atol_rad)
-            node = _nearest_nodes(index, pc, cell_tile, offset, frontier)
-            has = np.flatnonzero(node >= 0)
+            node, dist_km = _nearest_nodes(index, pc, cell_tile, offset, frontier)
+            has = np.flatnonzero(dist_km <= max_distance_km)
             if has.size == 0:
                 continue
-            node = node[has]
-            ph = pc[:, has] if has.size < cells.size else pc
-            half_chord2, z_foot, left = _nearest_point_terms(ph, index, node, btype in SIDE_TYPES)
-            dist_km = _lambert_distance_km(half_chord2, ph[2], z_foot)
-            within = dist_km <= max_distance_km
-            if not within.all():
-                has, node, dist_km = has[within], node[within], dist_km[within]
-                left = left[within] if left is not None else None
+            node, dist_km = node[has], dist_km[has]
             feature = index.feature[node]
             local[f"distance_to_{btype}_km"][has] = dist_km
             local[f"{btype}_rate_mm_yr"][has] = boundaries.rate_mm_yr[feature]
-            if left is not None:
+            if btype in SIDE_TYPES:
+                left = _left_of_line(pc[:, has], index, node)
                 local[f"{btype}_side"][has] = boundaries.upper_side[feature] * np.sign(left)
             closer = dist_km < nearest[has]
             nearest[has[closer]] = dist_km[closer]
