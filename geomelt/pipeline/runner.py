@@ -14,6 +14,7 @@ import difflib
 import hashlib
 import json
 import logging
+import math
 import os
 import shutil
 import time
@@ -46,7 +47,7 @@ from geomelt.layers import GRID_LAYERS, INPUT_LAYERS, OutputLayer
 from geomelt.parameters import ParameterSet
 from geomelt.pipeline import products
 from geomelt.pipeline.engines import iterate_windows
-from geomelt.tectonics.boundaries import BoundarySet
+from geomelt.tectonics.boundaries import BoundarySet, suggest_tile_km
 from geomelt.tectonics.hotspots import HotspotSet
 
 __all__ = [
@@ -255,7 +256,7 @@ def _plan_run(config: RunConfig, algorithm_ids: list[str] | None) -> RunPlan:
     for name, path in sorted(vector_inputs.items()):
         if name == "plate_boundaries":
             gdf = read_plate_boundaries(path)
-            vectors[name] = BoundarySet.from_frame(gdf)
+            vectors[name] = BoundarySet.from_frame(gdf, tile_km=suggest_tile_km(_cell_km(grid)))
         else:
             gdf = read_hotspots(path)
             vectors[name] = HotspotSet.from_frame(gdf)
@@ -290,6 +291,17 @@ def _plan_run(config: RunConfig, algorithm_ids: list[str] | None) -> RunPlan:
         frames=frames,
         warnings=value_warnings,
     )
+
+
+def _cell_km(grid: RasterGrid) -> float:
+    """Approximate cell size of the grid in km (for search tiling only)."""
+    dx, dy = grid.cell_size
+    if grid.is_geographic:
+        left, bottom, right, top = grid.bounds
+        mid_lat = math.radians(max(-89.0, min(89.0, 0.5 * (bottom + top))))
+        return max(1e-3, 0.5 * (dx * math.cos(mid_lat) + dy) * 111.32)
+    factor = grid.crs.linear_units_factor[1] if grid.crs is not None else 1.0
+    return max(1e-3, 0.5 * (dx + dy) * factor / 1000.0)
 
 
 def _sha256(path: Path) -> str:

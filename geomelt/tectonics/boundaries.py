@@ -30,14 +30,17 @@ Method
    among its tile's nodes, skipping those that a linear lower bound over
    the tile already rules out. Tiles are fixed on the sphere, so the result
    for a cell does not depend on the window it is computed in.
-4. The distance from the cell to the foot of the perpendicular on the chosen
-   chord is converted to an ellipsoidal distance with Lambert's (1942)
-   formula on the auxiliary sphere (relative error below 2e-6).
+4. Candidates are compared by their distance on the ellipsoid: the distance
+   from the cell to the foot of the perpendicular on each chord is converted
+   with Lambert's (1942) formula on the auxiliary sphere (relative error
+   below 2e-6). (Comparing angles on the auxiliary sphere instead would err
+   by up to the flattening, 0.34 %, where two boundaries lie at nearly the
+   same distance in different directions.)
 
-Step 3 guarantees an error below ``max(rtol * d, atol_km)`` on the auxiliary
-sphere. With the defaults (0.1 %, 2 m), distances agree with ``pyproj.Geod``
-point-to-line distances to 0.12 % beyond 10 km, 0.2 % beyond 1 km and 2 m
-closer (``tests/tectonics/test_boundaries.py``).
+Steps 2-3 guarantee an error below ``max(rtol * d, atol_km)``. With the
+defaults (0.1 %, 2 m), distances agree with ``pyproj.Geod`` point-to-line
+distances to 0.1 % beyond 2 km and 2 m closer
+(``tests/tectonics/test_boundaries.py``).
 
 References
 ----------
@@ -64,7 +67,7 @@ from __future__ import annotations
 
 import logging
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
@@ -91,10 +94,7 @@ log = logging.getLogger(__name__)
 _GEOD = Geod(ellps="WGS84")
 _A_KM = _GEOD.a / 1000.0  # WGS84 semi-major axis, km
 _F = _GEOD.f  # WGS84 flattening
-_B_KM = _A_KM * (1.0 - _F)  # semi-minor axis, km
-# Lambert's (1942) distance is a * sigma * (1 - k f) with 0 <= k <= 1 + sigma^2 / 12:
-# an angle sigma on the auxiliary sphere spans at least a (1 - _F_LOW) sigma.
-_F_LOW = 1.02 * _F
+_MAX_REACH_KM = 5000.0  # range over which Lambert's formula and the bounds were checked
 
 DEFAULT_MAX_DISTANCE_KM = 1500.0
 """Default reach of :func:`boundary_fields`, km: beyond it a boundary counts as absent."""
@@ -103,7 +103,7 @@ DEFAULT_MAX_SEGMENT_KM = 5.0
 """Default longest segment after densification, km."""
 
 DEFAULT_TILE_KM = 32.0
-"""Default edge of the search tiles at the centre of a cube face, km."""
+"""Default edge of the search tiles at the centre of a cube face, km (suits ~1 km cells)."""
 
 SIDE_TYPES = ("subduction", "collision")
 """Boundary types for which the upper-plate side is reported."""
@@ -124,15 +124,15 @@ def suggest_tile_km(cell_size_km: float) -> float:
     Returns
     -------
     float
-        24 cells, kept within 8-256 km. Measured: 32 km tiles were fastest
-        for 1 km cells, 128-256 km for 10 km cells.
+        32 cells, kept within 8-256 km. Measured: 32 km tiles were the
+        fastest for 1 km cells, 128-256 km for 10 km cells.
 
     Examples
     --------
     >>> suggest_tile_km(1.0), suggest_tile_km(10.0), suggest_tile_km(0.1)
-    (24.0, 240.0, 8.0)
+    (32.0, 256.0, 8.0)
     """
-    return float(min(max(24.0 * float(cell_size_km), 8.0), 256.0))
+    return float(min(max(32.0 * float(cell_size_km), 8.0), 256.0))
 
 
 _CHUNK_CELLS = 1 << 16
@@ -682,6 +682,9 @@ def _tile_frontier(
         ``P`` of the tile to the foot on its chord: ``level + grad . (P - c)``.
     """
     n_tiles = len(centres)
+    # Lambert's (1942) distance is a sigma (1 - k f) with 0 <= k <= 1 + sigma^2 / 10
+    # (sigma < 0.8): an angle sigma spans at least a (1 - f_low) sigma within reach.
+    f_low = _F * (1.0 + reach_rad * reach_rad / 10.0) * (1.0 + 1e-9)
     ub_tile = np.full(n_tiles, reach_rad)
     pt = np.arange(n_tiles)
     pn = np.full(n_tiles, index.root, dtype=np.int64)
@@ -694,7 +697,7 @@ def _tile_frontier(
         first = np.flatnonzero(np.concatenate([[True], pt[1:] != pt[:-1]]))
         tiles = pt[first]
         ub_tile[tiles] = np.minimum(ub_tile[tiles], np.minimum.reduceat(d + slack, first))
-        keep = (1.0 - _F_LOW) * lb <= ub_tile[pt] * (1.0 + 1e-12) + 1e-15
+        keep = (1.0 - f_low) * lb <= ub_tile[pt] * (1.0 + 1e-12) + 1e-15
         n_child = index.child_ptr[pn + 1] - index.child_ptr[pn]
         resolved = index.resolvable[pn] & (
             (n_child == 0) | (index.width[pn] <= np.maximum(rtol * lb, atol_rad))
@@ -712,7 +715,7 @@ def _tile_frontier(
     n = np.concatenate(fin_n)
     d = np.concatenate(fin_d)
     lb = np.concatenate(fin_lb)
-    keep = (1.0 - _F_LOW) * lb <= ub_tile[t] * (1.0 + 1e-12) + 1e-15
+    keep = (1.0 - f_low) * lb <= ub_tile[t] * (1.0 + 1e-12) + 1e-15
     order = np.flatnonzero(keep)
     order = order[np.lexsort((n[order], d[order], t[order]))]
     t, n, d = t[order], n[order], d[order]
@@ -1021,6 +1024,9 @@ class BoundarySet:
 
     Attributes
     ----------
+    indexes : tuple
+        Search trees of each type of :data:`geomelt.io.vectors.BOUNDARY_TYPES`
+        (None for a type without lines).
     rate_mm_yr : ndarray
         ``rate_mm_yr`` of each feature (row of the input frame), mm/yr; NaN
         where not given.
@@ -1032,6 +1038,8 @@ class BoundarySet:
     max_segment_km, tile_km, rtol, atol_km : float
         Densification step (km), search tile size (km) and distance tolerance
         (relative, and absolute in km); see :meth:`from_frame`.
+    n_features : int
+        Features with a line (``len()``).
     """
 
     indexes: tuple[_TypeIndex | None, ...]
@@ -1043,7 +1051,7 @@ class BoundarySet:
     tile_km: float = DEFAULT_TILE_KM
     rtol: float = 1e-3
     atol_km: float = 0.002
-    n_features: int = field(default=0)
+    n_features: int = 0
 
     @classmethod
     def from_frame(
@@ -1073,7 +1081,7 @@ class BoundarySet:
             each segment is taken to be a geodesic.
         tile_km : float
             Edge of the search tiles, km. Any value gives the same accuracy;
-            speed is best with tiles of about 15-30 grid cells
+            speed is best with tiles of about 32 grid cells
             (:func:`suggest_tile_km`). Keep one value for a whole run: the
             result for a cell depends, within the tolerance, on its tile.
         rtol, atol_km : float
@@ -1235,7 +1243,8 @@ def boundary_fields(
         (typically a window of :meth:`geomelt.io.rasters.RasterGrid.lonlat`).
         Non-finite cells give nodata.
     max_distance_km : float
-        Reach, km: boundaries farther than this count as absent (NaN).
+        Reach, km, up to 5000: boundaries farther than this count as absent
+        (NaN).
 
     Returns
     -------
@@ -1259,7 +1268,7 @@ def boundary_fields(
     Raises
     ------
     ValueError
-        Shapes differ, or ``max_distance_km`` is not positive.
+        Shapes differ, or ``max_distance_km`` is not in (0, 5000].
 
     Notes
     -----
@@ -1292,8 +1301,11 @@ def boundary_fields(
     if lon.shape != lat.shape:
         msg = f"boundary_fields: lon_deg {lon.shape} and lat_deg {lat.shape} differ in shape."
         raise ValueError(msg)
-    if not (max_distance_km > 0):
-        msg = f"boundary_fields: max_distance_km must be positive, got {max_distance_km!r}."
+    if not (0 < max_distance_km <= _MAX_REACH_KM):
+        msg = (
+            f"boundary_fields: max_distance_km must be in (0, {_MAX_REACH_KM:g}] km, got "
+            f"{max_distance_km!r}."
+        )
         raise ValueError(msg)
     shape = lon.shape
     out = {
@@ -1303,7 +1315,7 @@ def boundary_fields(
     flat = {name: arr.reshape(-1) for name, arr in out.items()}
     lon_f, lat_f = lon.reshape(-1), lat.reshape(-1)
     # Candidates are kept while a (1 - f) times their angle may be within reach.
-    reach_rad = min(max_distance_km / _A_KM * (1.0 + 1e-9), math.pi)
+    reach_rad = max_distance_km / _A_KM * (1.0 + 1e-9)
     atol_rad = boundaries.atol_km / _A_KM
     n_face = _tiles_per_face(boundaries.tile_km)
     for lo in range(0, lon_f.size, _CHUNK_CELLS):

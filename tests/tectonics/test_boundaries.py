@@ -229,6 +229,27 @@ def test_distances_match_geod(make_case):
     assert_distances_match(out["distance_to_boundary_km"], nearest_any, reach, "any type")
 
 
+def test_nearest_boundary_is_chosen_on_the_ellipsoid():
+    # reference: pyproj.Geod (Karney 2013). Cells straddle the bisector of a
+    # meridian and the equator near 5-10 degrees N/E: at equal angles on the
+    # auxiliary sphere, the north-south distance is shorter on the ellipsoid
+    # by the flattening (0.34 %), so picking the nearest line by angle would
+    # err by up to that much here.
+    meridian = np.array([[0.0, -20.0], [0.0, 30.0]])
+    equator = np.array([[-20.0, 0.0], [30.0, 0.0]])
+    gdf = frame([LineString(meridian), LineString(equator)], ["ridge", "ridge"])
+    t = np.linspace(-0.3, 0.3, 61)
+    lon = np.concatenate([5.0 + t, 10.0 + t])
+    lat = np.concatenate([5.0 - t, 10.0 - t])
+    ref = np.minimum(
+        geod_distance_km(lon, lat, dense_geodesic(meridian)),
+        geod_distance_km(lon, lat, dense_geodesic(equator)),
+    )
+    got = boundary_fields(BoundarySet.from_frame(gdf), lon, lat)["distance_to_ridge_km"]
+    rel = np.abs(got - ref) / ref
+    assert rel.max() <= 0.0012, f"{rel.max():.2e} (rtol 0.1 % of the search, reference: Geod)"
+
+
 def test_distance_scales_with_reach():
     # reference: pyproj.Geod (Karney 2013) -- a short reach cuts the field off
     line = np.array([[0.0, -5.0], [0.0, 5.0]])
@@ -357,6 +378,22 @@ def test_empty_geometries_are_dropped_and_counted():
     )
 
 
+def test_multilinestring_parts_keep_their_feature():
+    # reference: pyproj.Geod (Karney 2013); two parts 20 degrees apart, one feature.
+    west = np.array([[-10.0, -5.0], [-10.0, 5.0]])
+    east = np.array([[10.0, -5.0], [10.0, 5.0]])
+    gdf = frame([MultiLineString([west, east])], ["rift"], rates=[6.0])
+    lon = np.array([-9.0, 9.5, 0.0])
+    lat = np.zeros(3)
+    out = boundary_fields(BoundarySet.from_frame(gdf), lon, lat)
+    ref = np.minimum(
+        geod_distance_km(lon, lat, dense_geodesic(west)),
+        geod_distance_km(lon, lat, dense_geodesic(east)),
+    )
+    assert_distances_match(out["distance_to_rift_km"], ref, 1500.0, "multi-part line")
+    np.testing.assert_array_equal(out["rift_rate_mm_yr"], [6.0, 6.0, 6.0])
+
+
 def test_invalid_line_is_repaired_and_counted():
     # A MultiLineString with a collapsed part: make_valid keeps the good part.
     bad = MultiLineString([[(0.0, 0.0), (0.0, 2.0)], [(3.0, 3.0), (3.0, 3.0)]])
@@ -430,8 +467,9 @@ def test_bad_arrays():
     bs = BoundarySet.from_frame(frame([LineString([(0, 0), (1, 1)])], ["ridge"]))
     with pytest.raises(ValueError, match="differ in shape"):
         boundary_fields(bs, np.zeros(3), np.zeros(4))
-    with pytest.raises(ValueError, match="positive"):
-        boundary_fields(bs, np.zeros(3), np.zeros(3), max_distance_km=0.0)
+    for reach in (0.0, 6000.0, math.nan):
+        with pytest.raises(ValueError, match=r"max_distance_km must be in \(0, 5000\]"):
+            boundary_fields(bs, np.zeros(3), np.zeros(3), max_distance_km=reach)
     out = boundary_fields(bs, np.array([np.nan, 0.5]), np.array([0.5, np.nan]))
     _assert_all_nodata(out)
 
