@@ -16,7 +16,13 @@ from pathlib import Path
 import click
 
 import geomelt
-from geomelt.cli.options import config_with_overrides, handle_errors, verbosity
+from geomelt.cli.options import (
+    config_with_overrides,
+    handle_errors,
+    input_option,
+    param_option,
+    verbosity,
+)
 from geomelt.errors import GeomeltWarning
 from geomelt.io.rasters import crs_label, scan_raster_values
 from geomelt.layers import INPUT_LAYERS
@@ -117,22 +123,8 @@ def _covered(note: str) -> bool:
     help="Also check this output folder, as 'run' would (nothing is created).",
 )
 @click.option("--overwrite", is_flag=True, help="Check the folder as 'run --overwrite' would.")
-@click.option(
-    "-i",
-    "--input",
-    "inputs",
-    multiple=True,
-    metavar="NAME=PATH",
-    help="Override an input layer, as for 'run' (repeatable).",
-)
-@click.option(
-    "-p",
-    "--param",
-    "params",
-    multiple=True,
-    metavar="NAME=VALUE",
-    help="Override a parameter, as for 'run' (repeatable; TOML values).",
-)
+@input_option
+@param_option
 @click.option(
     "-a",
     "--algorithm",

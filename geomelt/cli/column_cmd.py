@@ -9,7 +9,7 @@ from pathlib import Path
 import click
 
 import geomelt
-from geomelt.cli.options import handle_errors, parse_assignments, verbosity
+from geomelt.cli.options import handle_errors, param_option, parse_assignments, verbosity
 from geomelt.errors import ConfigError
 from geomelt.io.config import RunConfig, load_config, parse_value
 from geomelt.io.plots import column_plot_png
@@ -68,14 +68,7 @@ def _print_probe(probe: ColumnProbe) -> None:
 @click.option("--slab-depth-km", type=float, help="Typed-in slab depth (omit: no slab).")
 @click.option("--potential-temperature-c", type=float, help="Mantle potential temperature.")
 @click.option("--water-wt-pct", type=float, help="Bulk water of the mantle source, wt%.")
-@click.option(
-    "-p",
-    "--param",
-    "params",
-    multiple=True,
-    metavar="NAME=VALUE",
-    help="Override any algorithm parameter (repeatable).",
-)
+@param_option
 @click.option(
     "--plot",
     type=click.Path(dir_okay=False, path_type=Path),

@@ -156,3 +156,25 @@ def config_with_overrides(
         parameters={k: parse_value(v) for k, v in parse_assignments(params, "--param").items()},
         run={"block_size": block_size} if block_size is not None else {},
     )
+
+
+input_option = click.option(
+    "-i",
+    "--input",
+    "inputs",
+    multiple=True,
+    metavar="NAME=PATH",
+    help="Override an input layer, e.g. -i heat_flow_mw_m2=hf.tif (repeatable).",
+)
+"""Shared ``-i/--input NAME=PATH`` option."""
+
+param_option = click.option(
+    "-p",
+    "--param",
+    "params",
+    multiple=True,
+    metavar="NAME=VALUE",
+    help="Override a parameter, e.g. -p mantle_potential_temperature_c=1400 (repeatable). "
+    "Values are TOML: numbers, [lists], text.",
+)
+"""Shared ``-p/--param NAME=VALUE`` option."""

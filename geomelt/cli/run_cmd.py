@@ -9,7 +9,13 @@ from pathlib import Path
 import click
 
 import geomelt
-from geomelt.cli.options import handle_errors, parse_assignments, verbosity
+from geomelt.cli.options import (
+    handle_errors,
+    input_option,
+    param_option,
+    parse_assignments,
+    verbosity,
+)
 from geomelt.io.config import load_config, parse_value
 from geomelt.pipeline import RunResult, execute_run, plan_run
 from geomelt.pipeline.engines import ENGINES
@@ -58,23 +64,8 @@ def print_summary(result: RunResult) -> None:
     help="Output folder (created; refused if it exists and is not empty, unless --overwrite).",
 )
 @click.option("--overwrite", is_flag=True, help="Replace geomelt outputs in an existing folder.")
-@click.option(
-    "-i",
-    "--input",
-    "inputs",
-    multiple=True,
-    metavar="NAME=PATH",
-    help="Override an input layer, e.g. -i heat_flow_mw_m2=hf.tif (repeatable).",
-)
-@click.option(
-    "-p",
-    "--param",
-    "params",
-    multiple=True,
-    metavar="NAME=VALUE",
-    help="Override a parameter, e.g. -p mantle_potential_temperature_c=1400 (repeatable). "
-    "Values are TOML: numbers, [lists], text.",
-)
+@input_option
+@param_option
 @click.option(
     "-a",
     "--algorithm",
