@@ -351,16 +351,28 @@ def _tif_bytes(folder: Path) -> int:
 # =====================================================================================
 # (a) I/O floor, in a child process
 # =====================================================================================
-def child_io_floor(config_path: str, out_dir: str, result_path: str, block_size, workers) -> None:
-    """Read the run's inputs and write the run's GeoTIFFs, with a cheap fill instead of physics.
+def child_io_floor(
+    config_path: str, out_dir: str, result_path: str, block_size, workers, replay_dir: str
+) -> None:
+    """Read the run's inputs and write the run's GeoTIFFs without the physics.
 
-    The windows go through :func:`geomelt.pipeline.engines.iterate_windows` (the default
-    thread engine, same worker count and windows in flight) with the plan's algorithms
-    replaced by one that derives every written output from the inputs with a single
-    arithmetic operation; grid longitude/latitude are not computed. Writers are built
-    exactly as :func:`geomelt.pipeline.runner.execute_run` builds them (staging folder,
-    profile and codec per dtype, overviews, band and dataset tags with input checksums,
-    colour tables and style sidecars for class rasters).
+    The windows go through geomelt's thread engine (``engines._threads``, as
+    :func:`~geomelt.pipeline.engines.iterate_windows` uses it: same worker count, windows
+    in flight and :class:`~geomelt.pipeline.engines.WindowComputer` readers) with
+    the plan's algorithms replaced by one that does no physics; grid longitude/latitude
+    are not computed. Writers are built exactly as
+    :func:`geomelt.pipeline.runner.execute_run` builds them (staging folder, profile and
+    codec per dtype, overviews, band and dataset tags with input checksums, colour tables
+    and style sidecars for class rasters).
+
+    The pixels written are either
+
+    - ``replay_dir`` given: the same window of an earlier geomelt run's GeoTIFF of that
+      output (so the floor compresses exactly the bytes the run compresses; the extra
+      reads are timed and reported as ``replay_read_s``), or
+    - ``replay_dir`` empty: a cheap fill, ``crust + k * heat_flow`` (float outputs) or a
+      class code picked from the crustal thickness (class outputs). Such fields are dense
+      and compress worse than the run's outputs, many of which are mostly nodata or 0.
     """
     t_start = time.perf_counter()
     import dataclasses
@@ -373,7 +385,7 @@ def child_io_floor(config_path: str, out_dir: str, result_path: str, block_size,
     from geomelt.classes import SCHEMES
     from geomelt.io.config import load_config
     from geomelt.io.geotiff import GeoTiffWriter
-    from geomelt.pipeline.engines import iterate_windows
+    from geomelt.pipeline import engines
     from geomelt.pipeline.runner import _sha256, plan_run
 
     t_imports = time.perf_counter()
@@ -384,6 +396,26 @@ def child_io_floor(config_path: str, out_dir: str, result_path: str, block_size,
     written = [(alg, o) for alg, o in plan.outputs if o.written]
     raster_names = sorted(plan.raster_inputs)
 
+    replay = Path(replay_dir) if replay_dir else None
+    local = threading.local()
+    replay_read = [0.0]
+    replay_lock = threading.Lock()
+
+    def replayed(window):
+        sources = getattr(local, "sources", None)
+        if sources is None:
+            sources = local.sources = {
+                o.name: rasterio.open(replay / f"{o.name}.tif") for _, o in written
+            }
+            with replay_lock:
+                opened.extend(sources.values())
+        t0 = time.perf_counter()
+        out = {name: ds.read(1, window=window) for name, ds in sources.items()}
+        with replay_lock:
+            replay_read[0] += time.perf_counter() - t0
+        return out
+
+    opened: list = []
     codes = {}
     for _, o in written:
         if o.dtype != "float32":
@@ -392,6 +424,8 @@ def child_io_floor(config_path: str, out_dir: str, result_path: str, block_size,
             codes[o.name] = np.asarray(values, dtype=np.int64)
 
     def cheap(arrays, _params):
+        if replay is not None:
+            return replayed(local.window)
         crust = arrays["crustal_thickness_km"]
         heat = arrays["heat_flow_mw_m2"]
         out = {}
@@ -422,6 +456,14 @@ def child_io_floor(config_path: str, out_dir: str, result_path: str, block_size,
         parameters={**plan.parameters, fake.id: base.parameters()},
         grid_layers=set(),
     )
+
+    class FloorComputer(engines.WindowComputer):
+        """geomelt's window computer, remembering (per thread) the window it computes."""
+
+        def __call__(self, window):
+            local.window = window
+            return super().__call__(window)
+
     out = Path(out_dir)
     if out.exists():
         shutil.rmtree(out)
@@ -460,15 +502,26 @@ def child_io_floor(config_path: str, out_dir: str, result_path: str, block_size,
             )
         t_open = time.perf_counter()
         windows = list(plan.grid.windows(plan.block_size))
-        for result in iterate_windows(floor_plan, windows, "threads", int(workers or 0)):
-            for _, o in written:
-                writers[o.name].write(result.arrays[o.name], result.window)
+        # What iterate_windows(plan, windows, "threads", workers) does, with the computer
+        # above: the same thread pool and bound on windows in flight.
+        computer = FloorComputer(floor_plan)
+        try:
+            n_workers = int(workers or 0) or engines.default_workers()
+            for result in engines._threads(computer, windows, n_workers):
+                for _, o in written:
+                    writers[o.name].write(result.arrays[o.name], result.window)
+        finally:
+            computer.close()
+            for ds in opened:
+                ds.close()
         t_windows = time.perf_counter()
         for w in writers.values():
             files.append(w.finish())
     shutil.rmtree(staging, ignore_errors=True)
     t_end = time.perf_counter()
     result = {
+        "fill": "replay" if replay is not None else "cheap",
+        "replay_read_s": replay_read[0],
         "outputs": len(written),
         "windows": len(windows),
         "block_size": plan.block_size,
@@ -631,6 +684,7 @@ def child_per_cell(config_path: str, result_path: str, n_cells: int, seed: int, 
     t_setup = time.perf_counter()
 
     timing = {"thermal": 0.0, "decompression": 0.0, "flux": 0.0, "crustal": 0.0, "distance": 0.0}
+    per_cell_times = []
     results = []
     tp0, grad = pt.mantle_potential_temperature_c, pt.adiabat_gradient_k_km
     zmax = pt.lab_max_depth_km
@@ -732,6 +786,7 @@ def child_per_cell(config_path: str, result_path: str, n_cells: int, seed: int, 
         t5 = time.perf_counter()
         for key, dt in zip(timing, (t1 - t0, t2 - t1, t3 - t2, t4 - t3, t5 - t4), strict=True):
             timing[key] += dt
+        per_cell_times.append(t5 - t0)
         results.append(res)
     t_end = time.perf_counter()
     n = len(results)
@@ -742,6 +797,10 @@ def child_per_cell(config_path: str, result_path: str, n_cells: int, seed: int, 
         "cells": n,
         "seed": seed,
         "per_cell_s": per_cell,
+        "per_cell_standard_error_s": float(np.std(per_cell_times, ddof=1) / math.sqrt(n))
+        if n > 1
+        else None,
+        "per_cell_max_s": max(per_cell_times) if per_cell_times else None,
         "per_cell_components_s": {k: t / n for k, t in timing.items()} if n else {},
         "compute_s": compute_s,
         "setup_s": t_setup - t_imports,
@@ -881,7 +940,7 @@ def measure_size(size: int, args, report: dict, log=print) -> dict:
     config = out / "inputs" / str(size) / "region.toml"
     runs = out / "runs" / str(size)
     logs = out / "logs" / str(size)
-    dirs = {k: runs / k for k in ("io_floor", "geomelt", "dask")}
+    dirs = {k: runs / k for k in ("io_floor", "geomelt", "dask", "reference")}
     extra = []
     if args.block_size:
         extra += ["--block-size", str(args.block_size)]
@@ -891,6 +950,18 @@ def measure_size(size: int, args, report: dict, log=print) -> dict:
     repeats = args.repeats_per_size[size]
     entry = {"inputs": stamp, "repeats": repeats, "measurements": {}}
     report["sizes"][str(size)] = entry
+    replay = ""
+    if args.floor == "replay":
+        # Untimed for the statistics: the outputs the floor replays; it also brings the
+        # inputs into the page cache before the first timed measurement.
+        cmd = _geomelt_command() + [
+            "run", str(config), "-o", str(dirs["reference"]), "--overwrite", "--no-progress",
+            *extra, *(["-w", workers] if args.workers else []),
+        ]  # fmt: skip
+        warm = run_measured(cmd, logs / "reference.log")
+        entry["reference_run"] = warm
+        replay = str(dirs["reference"])
+        log(f"[{size} reference] geomelt run for the replayed floor: {warm['wall_s']:.1f} s")
     for rep in range(repeats):
         for kind in kinds:
             tag = f"[{size} rep {rep + 1}/{repeats}] {kind:8s}"
@@ -899,7 +970,7 @@ def measure_size(size: int, args, report: dict, log=print) -> dict:
             if kind == "io_floor":
                 cmd = _child_command(
                     "io-floor", str(config), str(dirs[kind]), str(result_file),
-                    str(args.block_size or 0), workers,
+                    str(args.block_size or 0), workers, replay,
                 )  # fmt: skip
             elif kind == "geomelt":
                 cmd = _geomelt_command() + [
@@ -915,10 +986,14 @@ def measure_size(size: int, args, report: dict, log=print) -> dict:
             else:
                 cmd = _child_command(
                     "per-cell", str(config), str(result_file), str(args.sample_cells),
-                    str(args.seed + rep), str(dirs["geomelt"]),
+                    str(args.seed), str(dirs["geomelt"]),
                 )  # fmt: skip
+            before = _source_hash()
             m = run_measured(cmd, logs / f"{kind}-{rep}.log")
             m["repeat"] = rep
+            after = _source_hash()
+            m["source_hash"] = before if before == after else f"{before}->{after}"
+            m["cpu_s"] = m["user_s"] + m["system_s"]
             if result_file.exists():
                 m["child"] = json.loads(result_file.read_text())
             if kind in ("io_floor", "geomelt", "dask"):
@@ -941,8 +1016,16 @@ def measure_size(size: int, args, report: dict, log=print) -> dict:
         entry["measurements"] = summarise(reps, stamp)
     if "dask" in kinds:
         t0 = time.perf_counter()
-        entry["dask_vs_geomelt_outputs"] = compare_outputs(dirs["geomelt"], dirs["dask"])
-        entry["dask_vs_geomelt_outputs"]["compare_s"] = time.perf_counter() - t0
+        cmp_ = compare_outputs(dirs["geomelt"], dirs["dask"])
+        cmp_["compare_s"] = time.perf_counter() - t0
+        hashes = {reps["geomelt"][-1]["source_hash"], reps["dask"][-1]["source_hash"]}
+        cmp_["same_source"] = len(hashes) == 1 and "->" not in next(iter(hashes))
+        if not cmp_["same_source"]:
+            cmp_["note"] = (
+                "the geomelt sources changed between the compared runs "
+                f"({sorted(hashes)}); a difference may come from the code, not the engine"
+            )
+        entry["dask_vs_geomelt_outputs"] = cmp_
     entry["ratios"] = ratios(reps)
     entry["targets"] = targets(size, entry)
     return entry
@@ -953,6 +1036,7 @@ def summarise(reps: dict, stamp: dict) -> dict:
     for kind, items in reps.items():
         s = {
             "wall_s": _stats([m["wall_s"] for m in items]),
+            "cpu_s": _stats([m["cpu_s"] for m in items]),
             "peak_rss_mib": _stats([m["peak_rss_mib"] for m in items]),
             "tree_peak_rss_mib": _stats([m["tree_peak_rss_mib"] for m in items]),
             "per_repeat": items,
@@ -981,13 +1065,25 @@ def ratios(reps: dict) -> dict:
             _ratio(_time_of(num, x), _time_of(den, y))
             for x, y in zip(reps[num], reps[den], strict=True)
         ]
+        min_num = min(_time_of(num, m) for m in reps[num])
+        min_den = min(_time_of(den, m) for m in reps[den])
         out[name] = {
             "numerator": num,
             "denominator": den,
             "from_medians": _ratio(med_num, med_den),
+            "from_minima": _ratio(min_num, min_den),
             "per_repeat": per_rep,
             "per_repeat_stats": _stats(per_rep),
         }
+        if num != "per_cell":
+            cpu = [
+                _ratio(x["cpu_s"], y["cpu_s"]) for x, y in zip(reps[num], reps[den], strict=True)
+            ]
+            out[name]["cpu_time_per_repeat"] = cpu
+            out[name]["cpu_time_from_medians"] = _ratio(
+                statistics.median(m["cpu_s"] for m in reps[num]),
+                statistics.median(m["cpu_s"] for m in reps[den]),
+            )
     return out
 
 
@@ -1079,7 +1175,13 @@ def print_table(size: int, entry: dict) -> None:
             continue
         x = r[name]
         per = ", ".join(_fmt(v, ".3g") for v in x["per_repeat"])
-        print(f"ratio {label}: {_fmt(x['from_medians'], '.3g')} from medians; per repeat [{per}]")
+        line = (
+            f"ratio {label}: {_fmt(x['from_medians'], '.3g')} from medians, "
+            f"{_fmt(x['from_minima'], '.3g')} from minima; per repeat [{per}]"
+        )
+        if "cpu_time_from_medians" in x:
+            line += f"; CPU-time ratio {_fmt(x['cpu_time_from_medians'], '.3g')} (medians)"
+        print(line)
     print()
     for name, x in t.items():
         met = {True: "MET", False: "NOT MET", None: "n/a"}[x["met"]]
@@ -1091,7 +1193,41 @@ def print_table(size: int, entry: dict) -> None:
         )
     cmp_ = entry.get("dask_vs_geomelt_outputs")
     if cmp_ and not cmp_["identical"]:
-        print(f"  dask outputs differ: missing {cmp_['missing']}, different {cmp_['different']}")
+        diff = ", ".join(f"{k}: {v}" for k, v in list(cmp_["different"].items())[:6])
+        more = len(cmp_["different"]) - 6
+        print(
+            f"  dask outputs differ in {len(cmp_['different'])} file(s): {diff}"
+            + (f" (+{more} more)" if more > 0 else "")
+            + (f"; missing {cmp_['missing']}" if cmp_["missing"] else "")
+        )
+    if cmp_ and cmp_.get("note"):
+        print(f"  NOTE: {cmp_['note']}")
+
+
+def _source_hash() -> str:
+    """Hash of every geomelt source file: tells whether the code changed between measurements
+    (other people may be editing the package while the benchmark runs)."""
+    import hashlib
+
+    h = hashlib.sha256()
+    for path in sorted((REPO / "geomelt").rglob("*.py")):
+        h.update(path.relative_to(REPO).as_posix().encode())
+        h.update(path.read_bytes())
+    return h.hexdigest()[:12]
+
+
+def _git_state() -> dict:
+    def git(*cmd):
+        done = subprocess.run(
+            ["git", "-C", str(REPO), *cmd], capture_output=True, text=True, check=False
+        )
+        return done.stdout.strip() if done.returncode == 0 else None
+
+    status = git("status", "--short", "--", "geomelt")
+    return {
+        "head": git("rev-parse", "HEAD"),
+        "modified_geomelt_files": status.splitlines() if status else [],
+    }
 
 
 def _environment() -> dict:
@@ -1139,6 +1275,13 @@ def parse_args(argv=None):
     p.add_argument("--sample-cells", type=int, default=200, help="cells of the per-cell path")
     p.add_argument("--seed", type=int, default=20240, help="seed of the per-cell sample")
     p.add_argument("--skip-dask", action="store_true", help="leave out the dask measurement")
+    p.add_argument(
+        "--floor",
+        choices=("replay", "cheap"),
+        default="replay",
+        help="pixels the I/O floor writes: those of an untimed reference run (default; the "
+        "same bytes to compress as the run) or a cheap function of the inputs",
+    )
     p.add_argument("--dask-workers", type=int, default=2, help="local dask worker processes")
     p.add_argument(
         "--block-size", type=int, default=0, help="window size passed to every run (0: default)"
@@ -1162,13 +1305,14 @@ def main(argv=None) -> int:
     if args.child:
         mode, rest = args.child[0], args.child[1:]
         if mode == "io-floor":
-            config, out_dir, result, block, workers = rest
-            child_io_floor(config, out_dir, result, int(block), int(workers))
+            config, out_dir, result, block, workers, replay = rest
+            child_io_floor(config, out_dir, result, int(block), int(workers), replay)
         elif mode == "per-cell":
             config, result, n, seed, run_dir = rest
             child_per_cell(config, result, int(n), int(seed), run_dir)
         else:
-            raise SystemExit(f"unknown child mode {mode!r}")
+            msg = f"unknown child mode {mode!r}"
+            raise SystemExit(msg)
         return 0
     out = Path(args.out).resolve()
     out.mkdir(parents=True, exist_ok=True)
@@ -1179,12 +1323,14 @@ def main(argv=None) -> int:
         ),
         "started_utc": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime()),
         "environment": _environment(),
+        "git": _git_state(),
         "settings": {
             "sizes": args.sizes,
             "repeats": args.repeats_per_size,
             "sample_cells": args.sample_cells,
             "seed": args.seed,
             "skip_dask": args.skip_dask,
+            "floor": args.floor,
             "dask_workers": args.dask_workers,
             "block_size": args.block_size or "config default",
             "workers": args.workers or "default (one per core)",
