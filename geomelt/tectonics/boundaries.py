@@ -111,6 +111,9 @@ SIDE_TYPES = ("subduction", "collision")
 NO_BOUNDARY_CODE = 255
 """``nearest_boundary_type`` value where no boundary lies within reach."""
 
+NO_FEATURE = -1
+"""``nearest_<type>_feature`` value where no line of that type lies within reach."""
+
 
 def suggest_tile_km(cell_size_km: float) -> float:
     """A good ``tile_km`` for :meth:`BoundarySet.from_frame` on a grid of this cell size.
@@ -186,6 +189,17 @@ def _field_table() -> dict[str, BoundaryField]:
                 f"+1 on the upper-plate (overriding) side of the nearest {btype} line, -1 on the "
                 "lower-plate side, 0 where its upper_plate_side is not given (or the cell lies "
                 "on the line); NaN where none lies within the reach",
+            )
+        )
+    for btype in BOUNDARY_TYPES:
+        fields.append(
+            BoundaryField(
+                f"nearest_{btype}_feature",
+                "",
+                "int32",
+                NO_FEATURE,
+                f"Row (0-based, in the input layer) of the nearest {btype} line; {NO_FEATURE} "
+                "where none lies within the reach (to total per-cell quantities per line)",
             )
         )
     fields.append(
@@ -1261,6 +1275,8 @@ def boundary_fields(
           upper-plate side of the nearest such line, -1 on the lower-plate
           side, 0 where its ``upper_plate_side`` is not given (or the cell is
           on the line), NaN where none within reach.
+        - ``nearest_<type>_feature`` (int32): row of the input frame of that
+          nearest line; :data:`NO_FEATURE` (-1) where none within reach.
         - ``distance_to_boundary_km`` (float32, km): nearest of any type.
         - ``nearest_boundary_type`` (uint8): index of that type in
           ``BOUNDARY_TYPES``; :data:`NO_BOUNDARY_CODE` (255) where none.
@@ -1329,7 +1345,12 @@ def boundary_fields(
         cell_tile = cell_tile.reshape(-1)
         centres, radii = _tile_caps(tiles, n_face)
         offset = pc - centres.T[:, cell_tile]
-        local = {name: np.full(cells.size, np.nan) for name in BOUNDARY_FIELDS}
+        local = {
+            name: np.full(
+                cells.size, spec.nodata, dtype=np.float64 if spec.dtype == "float32" else spec.dtype
+            )
+            for name, spec in BOUNDARY_FIELDS.items()
+        }
         nearest = np.full(cells.size, np.inf)
         nearest_code = np.full(cells.size, NO_BOUNDARY_CODE, dtype=np.uint8)
         for code, (btype, index) in enumerate(zip(BOUNDARY_TYPES, boundaries.indexes, strict=True)):
@@ -1344,6 +1365,7 @@ def boundary_fields(
             feature = index.feature[node]
             local[f"distance_to_{btype}_km"][has] = dist_km
             local[f"{btype}_rate_mm_yr"][has] = boundaries.rate_mm_yr[feature]
+            local[f"nearest_{btype}_feature"][has] = feature
             if btype in SIDE_TYPES:
                 left = _left_of_line(pc[:, has], index, node)
                 local[f"{btype}_side"][has] = boundaries.upper_side[feature] * np.sign(left)

@@ -28,6 +28,7 @@ from geomelt.io.vectors import BOUNDARY_TYPES, read_plate_boundaries
 from geomelt.tectonics.boundaries import (
     BOUNDARY_FIELDS,
     NO_BOUNDARY_CODE,
+    NO_FEATURE,
     BoundarySet,
     boundary_fields,
 )
@@ -352,6 +353,8 @@ def _assert_all_nodata(out):
     for name, spec in BOUNDARY_FIELDS.items():
         if spec.dtype == "uint8":
             assert (out[name] == NO_BOUNDARY_CODE).all(), name
+        elif spec.dtype == "int32":
+            assert (out[name] == NO_FEATURE).all(), name
         else:
             assert np.isnan(out[name]).all(), name
 
@@ -578,3 +581,19 @@ def test_sample_region_arcs_forearcs_and_ridge(sample_boundaries, sample_grid):
     assert at["a"]["ridge_rate_mm_yr"] == 40.0
     assert at["f"]["subduction_rate_mm_yr"] == 70.0  # Kessik Trench
     assert at["i"]["subduction_rate_mm_yr"] == 60.0  # Tavrel Trench
+
+
+def test_nearest_feature_names_the_row_of_the_nearest_line():
+    # rows: 0 ridge at 0E, 1 subduction at 5E, 2 ridge at 10E; a cell at 2E is nearest the
+    # first ridge, one at 8E the second; its subduction line is row 1 on both sides.
+    lines = [
+        LineString([(0, -5), (0, 5)]),
+        LineString([(5, -5), (5, 5)]),
+        LineString([(10, -5), (10, 5)]),
+    ]
+    bs = BoundarySet.from_frame(frame(lines, ["ridge", "subduction", "ridge"], rates=[40, 70, 20]))
+    out = boundary_fields(bs, np.array([2.0, 8.0]), np.array([0.0, 0.0]))
+    assert out["nearest_ridge_feature"].tolist() == [0, 2]
+    assert out["ridge_rate_mm_yr"].tolist() == [40.0, 20.0]
+    assert out["nearest_subduction_feature"].tolist() == [1, 1]
+    assert out["nearest_rift_feature"].tolist() == [NO_FEATURE, NO_FEATURE]
