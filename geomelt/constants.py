@@ -62,6 +62,18 @@ def _c(*args, **kwargs) -> Constant:
 
 
 # --------------------------------------------------------------------------------------
+# Geodesy
+# --------------------------------------------------------------------------------------
+EARTH_MEAN_RADIUS_KM = _c(
+    "earth_mean_radius_km",
+    6371.0088,
+    "km",
+    "Mean radius R1 = (2a + b)/3 of the GRS80/WGS84 ellipsoid, for distances on a sphere",
+    "Moritz, H. (2000) Geodetic Reference System 1980. J. Geodesy 74, 128-133",
+)
+
+
+# --------------------------------------------------------------------------------------
 # Conductive continental geotherm (Turcotte & Schubert 2002, section 4-8;
 # Hasterok & Chapman 2011; Pollack & Chapman 1977)
 # --------------------------------------------------------------------------------------
@@ -293,10 +305,11 @@ TEMPERATURE_DEPTHS_KM = _c(
 )
 ISOTHERMS_C = _c(
     "isotherms_c",
-    (150.0, 350.0, 600.0),
+    (350.0, 600.0),
     "degC",
-    "Isotherms whose depth is mapped: 150 degC (power-grade geothermal), 350 degC "
-    "(brittle-ductile transition of quartz-rich crust), 600 degC (near the wet granite solidus)",
+    "Further isotherms whose depth is mapped (besides the direct-use, binary and flash "
+    "isotherms): 350 degC (brittle-ductile transition of quartz-rich crust), 600 degC (near "
+    "the wet granite solidus)",
     "common practice",
     20.0,
     1600.0,
@@ -1638,4 +1651,42 @@ VMS_WEIGHT_MELT_VOLUME = _c(
     _MIN_WEIGHT,
     0.0,
     10.0,
+)
+
+# --------------------------------------------------------------------------------------
+# Prospects: contiguous cells whose screening score passes a threshold become ranked
+# polygons (geomelt.io.prospects)
+# --------------------------------------------------------------------------------------
+_PROSPECT_CHOICE = (
+    "geomelt default (a screening convention, not a published value): the score scale is "
+    "relative, so set it to the share of the region you can follow up"
+)
+HEAT_SOURCE_PROSPECT_THRESHOLD = _c(
+    "heat_source_prospect_threshold",
+    0.6,
+    "1",
+    "Heat-source score at or above which contiguous cells form a geothermal prospect polygon",
+    _PROSPECT_CHOICE,
+    0.0,
+    1.0,
+)
+MINERAL_PROSPECT_THRESHOLD = _c(
+    "mineral_prospect_threshold",
+    0.6,
+    "1",
+    "Mineral-system affinity score at or above which contiguous cells form a prospect polygon",
+    _PROSPECT_CHOICE,
+    0.0,
+    1.0,
+)
+PROSPECT_MIN_AREA_KM2 = _c(
+    "prospect_min_area_km2",
+    2000.0,
+    "km2",
+    "Smallest prospect polygon kept; smaller patches are dropped as noise of the input grids",
+    "geomelt default (about a 45 x 45 km block, twenty cells of a regional grid of 10 km "
+    "cells); common practice is to drop patches smaller than the resolution of the coarsest "
+    "input",
+    0.0,
+    1.0e6,
 )

@@ -9,7 +9,14 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-__all__ = ["GRID_LAYERS", "INPUT_LAYERS", "InputLayer", "OutputLayer"]
+__all__ = [
+    "GRID_LAYERS",
+    "INPUT_LAYERS",
+    "NEIGHBOURHOOD_LAYERS",
+    "InputLayer",
+    "NeighbourhoodLayer",
+    "OutputLayer",
+]
 
 
 @dataclass(frozen=True)
@@ -78,8 +85,40 @@ INPUT_LAYERS: dict[str, InputLayer] = {
 GRID_LAYERS: dict[str, str] = {
     "cell_lon_deg": "Cell-centre longitude on WGS84, degrees (from the reference grid)",
     "cell_lat_deg": "Cell-centre latitude on WGS84, degrees (from the reference grid)",
+    "cell_area_km2": "True area of the cell on the ellipsoid, km2 (from the reference grid)",
 }
 """Per-cell layers the pipeline derives from the reference grid itself."""
+
+
+@dataclass(frozen=True)
+class NeighbourhoodLayer:
+    """A per-cell layer that depends on the whole grid, not on the cell alone.
+
+    The pipeline computes it between its two passes over the windows: the first pass
+    produces ``sources`` everywhere, then the layer is built from them, and the
+    algorithms that read it run in the second pass.
+    """
+
+    name: str
+    unit: str
+    description: str
+    sources: tuple[str, ...]
+
+
+NEIGHBOURHOOD_LAYERS: dict[str, NeighbourhoodLayer] = {
+    layer.name: layer
+    for layer in (
+        NeighbourhoodLayer(
+            "distance_to_melt_km",
+            "km",
+            "Distance to the nearest cell with predicted melt (any melting mechanism), km, on "
+            "the sphere of the Earth's mean radius; 0 on melting cells, inf where the region "
+            "has no melt",
+            ("melting_mechanism",),
+        ),
+    )
+}
+"""Layers that need the whole grid (computed by the pipeline between its passes)."""
 
 
 @dataclass(frozen=True)
@@ -103,3 +142,6 @@ class OutputLayer:
     """For 0/1 flag outputs: warning reported with the count of flagged cells."""
     written: bool = True
     """False for arrays other algorithms read but no GeoTIFF is written for."""
+    calibration: str | None = None
+    """Where the method leaves a cell without a value although its inputs are valid: the
+    calibrated range it would leave (such cells are counted and reported, never clipped)."""

@@ -153,6 +153,10 @@ class ThermalParameters(ParameterSet):
     gdh1_plate_thickness_km: float = param(C.GDH1_PLATE_THICKNESS_KM)
     temperature_depths_km: tuple[float, ...] = param(C.TEMPERATURE_DEPTHS_KM)
     isotherms_c: tuple[float, ...] = param(C.ISOTHERMS_C)
+    screening_temperature_depth_km: float = param(C.SCREENING_TEMPERATURE_DEPTH_KM)
+    direct_use_isotherm_c: float = param(C.DIRECT_USE_ISOTHERM_C)
+    binary_isotherm_c: float = param(C.BINARY_ISOTHERM_C)
+    flash_isotherm_c: float = param(C.FLASH_ISOTHERM_C)
 
     def __post_init__(self) -> None:
         super().__post_init__()
@@ -388,12 +392,8 @@ class GeothermalScreeningParameters(ParameterSet):
 
     title: ClassVar[str] = "geothermal heat-source screening"
 
-    screening_temperature_depth_km: float = param(C.SCREENING_TEMPERATURE_DEPTH_KM)
     heat_source_temperature_zero_c: float = param(C.HEAT_SOURCE_TEMPERATURE_ZERO_C)
     heat_source_temperature_full_c: float = param(C.HEAT_SOURCE_TEMPERATURE_FULL_C)
-    direct_use_isotherm_c: float = param(C.DIRECT_USE_ISOTHERM_C)
-    binary_isotherm_c: float = param(C.BINARY_ISOTHERM_C)
-    flash_isotherm_c: float = param(C.FLASH_ISOTHERM_C)
     isotherm_depth_full_km: float = param(C.ISOTHERM_DEPTH_FULL_KM)
     isotherm_depth_zero_km: float = param(C.ISOTHERM_DEPTH_ZERO_KM)
     melt_proximity_full_km: float = param(C.MELT_PROXIMITY_FULL_KM)
@@ -407,6 +407,8 @@ class GeothermalScreeningParameters(ParameterSet):
     heat_source_weight_crustal_melt: float = param(C.HEAT_SOURCE_WEIGHT_CRUSTAL_MELT)
     screening_combination: str = param(C.SCREENING_COMBINATION)
     fuzzy_gamma: float = param(C.FUZZY_GAMMA)
+    heat_source_prospect_threshold: float = param(C.HEAT_SOURCE_PROSPECT_THRESHOLD)
+    prospect_min_area_km2: float = param(C.PROSPECT_MIN_AREA_KM2)
 
     def __post_init__(self) -> None:
         super().__post_init__()
@@ -484,6 +486,8 @@ class MineralScreeningParameters(ParameterSet):
     vms_weight_melt_volume: float = param(C.VMS_WEIGHT_MELT_VOLUME)
     screening_combination: str = param(C.SCREENING_COMBINATION)
     fuzzy_gamma: float = param(C.FUZZY_GAMMA)
+    mineral_prospect_threshold: float = param(C.MINERAL_PROSPECT_THRESHOLD)
+    prospect_min_area_km2: float = param(C.PROSPECT_MIN_AREA_KM2)
 
     def __post_init__(self) -> None:
         super().__post_init__()

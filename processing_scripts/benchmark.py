@@ -453,6 +453,10 @@ def child_io_floor(
     floor_plan = dataclasses.replace(
         plan,
         algorithms=[fake],
+        stages=[[fake]],
+        outputs=[(fake, o) for _, o in written],
+        carry=(),
+        reducers=[],
         parameters={**plan.parameters, fake.id: base.parameters()},
         grid_layers=set(),
     )

@@ -738,7 +738,7 @@ hotspots = "hotspots.gpkg"
 [parameters]
 mantle_potential_temperature_c = 1350.0
 temperature_depths_km = [5.0, 10.0, 20.0]
-isotherms_c = [150.0, 350.0, 600.0]
+isotherms_c = [350.0, 600.0]
 """
 
 

@@ -9,7 +9,7 @@ import math
 import pytest
 
 from geomelt.algorithms import algorithm_chain, registered_algorithms
-from geomelt.layers import GRID_LAYERS, INPUT_LAYERS
+from geomelt.layers import GRID_LAYERS, INPUT_LAYERS, NEIGHBOURHOOD_LAYERS
 
 ALGORITHMS = list(registered_algorithms().values())
 UNIT_SUFFIX = {
@@ -28,6 +28,7 @@ UNIT_SUFFIX = {
     "J kg-1 K-1": "_j_kg_k",
     "mm yr-1": "_mm_yr",
     "m3 km-2 yr-1": "_m3_km2_yr",
+    "km2": "_km2",
 }
 DIMENSIONLESS = ("", "1", "class")
 
@@ -75,8 +76,26 @@ def test_chain_orders_producers_first():
     produced = set(INPUT_LAYERS) | set(GRID_LAYERS)
     for alg in chain:
         for name in alg.inputs:
+            if name in NEIGHBOURHOOD_LAYERS:
+                # built between the passes: its sources must come first
+                for source in NEIGHBOURHOOD_LAYERS[name].sources:
+                    assert source in produced, f"{alg.id} runs before the producer of {source}"
+                continue
             assert name in produced, f"{alg.id} runs before the producer of {name}"
         produced.update(o.name for o in alg.output_layers())
+
+
+def test_whole_grid_layers_split_the_run_into_two_passes():
+    from geomelt.pipeline.runner import _split_passes
+
+    chain = algorithm_chain()
+    stages, carry = _split_passes(chain, {"crustal_thickness_km", "heat_flow_mw_m2"})
+    assert [a.id for a in stages[1]] == ["geothermal_screening"]
+    assert "melting_mechanism" in carry and "distance_to_melt_km" not in carry
+    assert "geothermal_screening" not in [a.id for a in stages[0]]
+    # without a whole-grid layer there is one pass and nothing is carried
+    stages, carry = _split_passes(algorithm_chain(["melt_productivity"]), set())
+    assert len(stages) == 1 and carry == ()
 
 
 def test_parameter_names_mean_the_same_everywhere():

@@ -231,3 +231,135 @@ def test_mineral_system_scores_follow_their_settings(demo_out, kind, system):
     craton = value_at(demo_out, f"{system}_score", FEATURES["m"])
     assert own >= 0.75, (f["name"], own)
     assert own > craton + 0.4
+
+
+# ----------------------------------------------------------------- productivity per line
+def _boundaries(out):
+    import pyogrio
+
+    return pyogrio.read_dataframe(out / "results.gpkg", layer="plate_boundaries")
+
+
+def test_ridge_lines_make_melt_thickness_times_rate(demo_out):
+    # McKenzie & Bickle (1988): a ridge makes (crustal thickness x full rate) per km per
+    # Myr; 7 km at 40 mm/yr is 280 km3/km/Myr. Cells beyond a segment's ends are credited
+    # to it too, so short segments sit a little above: 15 % tolerance.
+    lines = _boundaries(demo_out)
+    ridge = kinds("mid_ocean_ridge")[0]
+    h = value_at(demo_out, "melt_thickness_km", ridge)
+    ridges = lines[lines["boundary_type"] == "ridge"]
+    assert len(ridges) >= 2
+    for _, r in ridges.iterrows():
+        expected = h * r["rate_mm_yr"]
+        assert r["melt_production_km3_km_myr"] == pytest.approx(expected, rel=0.15), r["name"]
+
+
+def test_arc_lines_inside_published_arc_budgets(demo_out):
+    # Arc crustal growth 20-40 km3/km/Myr (Reymer & Schubert 1984, from memory) and western
+    # Pacific island arcs 30-95 (Dimalanta et al. 2002, from memory): 20-95 overall.
+    lines = _boundaries(demo_out)
+    arcs = lines[lines["boundary_type"] == "subduction"]
+    assert len(arcs) >= 2
+    for _, r in arcs.iterrows():
+        assert 20.0 <= r["melt_production_km3_km_myr"] <= 95.0, r["name"]
+    # collision and transform lines make no melt of their own
+    quiet = lines[lines["boundary_type"].isin(["collision", "transform"])]
+    assert quiet["melt_production_km3_yr"].isna().all()
+
+
+def test_regional_totals_in_run_metadata(demo_out):
+    import json
+
+    import pyogrio
+
+    meta = pyogrio.read_dataframe(demo_out / "results.gpkg", layer="run_metadata")
+    totals = meta[meta["section"] == "total"]
+    ridge = json.loads(totals.loc[totals["key"] == "mid-ocean ridge", "value"].iloc[0])
+    assert ridge["area_km2"] > 0 and ridge["ridge_melt_production_km3_yr"] > 0
+    area = sum(json.loads(v)["area_km2"] for v in totals["value"])
+    assert area == pytest.approx(4000.0 * 3000.0, rel=1e-6)  # equal-area grid, every cell
+
+
+# ------------------------------------------------------------------ geothermal screening
+def test_heat_source_score_high_at_hotspots_and_rifts_low_in_cratons(demo_out):
+    craton = value_at(demo_out, "heat_source_score", FEATURES["m"])
+    for kind in ("continental_hotspot", "oceanic_hotspot", "continental_rift"):
+        f = kinds(kind)[0]
+        assert value_at(demo_out, "heat_source_score", f) > craton + 0.3, f["name"]
+        assert value_at(demo_out, "distance_to_melt_km", f) == 0.0
+    assert value_at(demo_out, "distance_to_melt_km", FEATURES["m"]) > 200.0
+    assert value_at(demo_out, "heat_source_melt_proximity_factor", FEATURES["m"]) == 0.0
+
+
+# --------------------------------------------------------------------------- prospects
+def _prospects(out):
+    import pyogrio
+
+    return pyogrio.read_dataframe(out / "results.gpkg", layer="prospects")
+
+
+def _prospect_at(prospects, screen, feature):
+    from shapely.geometry import Point
+
+    point = Point(feature["x"], feature["y"])
+    hit = prospects[(prospects["screen"] == screen) & prospects.contains(point)]
+    assert len(hit) == 1, (screen, feature["name"])
+    return hit.iloc[0]
+
+
+def test_prospects_are_ranked_polygons(demo_out):
+    p = _prospects(demo_out)
+    assert len(p) >= 6
+    assert p["rank"].tolist() == list(range(1, len(p) + 1))
+    assert (p["mean_score"].diff().dropna() <= 1e-9).all()
+    assert (p["area_km2"] >= 2000.0).all()  # prospect_min_area_km2 default
+    assert (p["mean_score"] >= p["threshold"]).all() and (p["max_score"] <= 1.0).all()
+    screens = set(p["screen"])
+    assert {"geothermal_heat_source", "porphyry_cu_au_mo", "magmatic_ni_cu_pge"} <= screens
+    for _, group in p.groupby("screen"):
+        assert sorted(group["screen_rank"]) == list(range(1, len(group) + 1))
+
+
+def test_arc_prospects_are_driven_by_the_arc(demo_out):
+    # porphyry Cu with arc magmatism (Sillitoe 2010; Richards 2003)
+    p = _prospects(demo_out)
+    arc = _prospect_at(p, "porphyry_cu_au_mo", kinds("continental_arc")[0])
+    assert arc["dominant_setting"] == "continental arc"
+    assert arc["dominant_magma_type"] == "intermediate"
+    drivers = {arc["driver_1"], arc["driver_2"], arc["driver_3"]}
+    assert drivers & {"flux melt", "setting affinity", "magma affinity"}
+
+
+def test_hotspot_prospects_are_driven_by_the_plume(demo_out):
+    p = _prospects(demo_out)
+    # magmatic Ni-Cu-PGE with plume melts in continental crust (Naldrett 2004)
+    plume = _prospect_at(p, "magmatic_ni_cu_pge", kinds("continental_hotspot")[0])
+    assert plume["dominant_setting"] == "continental hotspot"
+    assert plume["driver_1"] == "setting affinity"
+    # geothermal: heat of the melting column beneath the oceanic hotspot
+    heat = _prospect_at(p, "geothermal_heat_source", kinds("oceanic_hotspot")[0])
+    assert "melt proximity" in heat["drivers"]
+    assert heat["dominant_mechanism"].startswith("decompression")
+
+
+# ------------------------------------------------------------------------------ report
+def test_report_is_self_contained_and_complete(demo_out):
+    import base64
+    import re
+
+    html = (demo_out / "report.html").read_text(encoding="utf-8")
+    assert html.count("not a substitute for site investigation") == 2  # caution top and end
+    images = re.findall(r'src="data:image/png;base64,([^"]+)"', html)
+    pngs = sorted((demo_out / "quicklook").glob("*.png"))
+    assert len(images) == len(pngs) >= 10
+    assert base64.b64decode(images[0])[:8] == b"\x89PNG\r\n\x1a\n"
+    assert "http://" not in html and "https://" not in html
+    for heading in (
+        "Area and melt production per setting",
+        "Melt production of plate-boundary lines",
+        "Top prospects",
+        "Output rasters",
+        "Inputs",
+    ):
+        assert heading in html, heading
+    assert "Halvane" in html  # a ridge line of the invented region in the per-line table

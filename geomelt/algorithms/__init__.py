@@ -13,11 +13,11 @@ from importlib.metadata import entry_points
 from geomelt.algorithms.base import Algorithm
 from geomelt.algorithms.melting import CRUSTAL_MELTING, DECOMPRESSION_MELTING, FLUX_MELTING
 from geomelt.algorithms.productivity import MELT_PRODUCTIVITY
-from geomelt.algorithms.screening import MINERAL_SCREENING
+from geomelt.algorithms.screening import GEOTHERMAL_SCREENING, MINERAL_SCREENING
 from geomelt.algorithms.tectonics import BOUNDARY_PROXIMITY, TECTONIC_SETTING
 from geomelt.algorithms.thermal import THERMAL_STATE
 from geomelt.errors import GeomeltError
-from geomelt.layers import GRID_LAYERS, INPUT_LAYERS
+from geomelt.layers import GRID_LAYERS, INPUT_LAYERS, NEIGHBOURHOOD_LAYERS
 
 __all__ = ["Algorithm", "algorithm_chain", "get_algorithm", "registered_algorithms"]
 
@@ -32,6 +32,7 @@ _BUILTIN: tuple[Algorithm, ...] = (
     TECTONIC_SETTING,
     MELT_PRODUCTIVITY,
     MINERAL_SCREENING,
+    GEOTHERMAL_SCREENING,
 )
 
 
@@ -90,6 +91,11 @@ def algorithm_chain(ids: list[str] | None = None) -> list[Algorithm]:
         visiting.add(alg.id)
         for name in alg.inputs:
             if name in INPUT_LAYERS or name in GRID_LAYERS:
+                continue
+            if name in NEIGHBOURHOOD_LAYERS:
+                # built by the pipeline between its passes, from layers of the first pass
+                for source in NEIGHBOURHOOD_LAYERS[name].sources:
+                    visit(algs[producer[source]])
                 continue
             if name not in producer:
                 msg = f"algorithm {alg.id!r} reads {name!r}, which no algorithm produces"

@@ -70,6 +70,10 @@ def _decompression_outputs(params) -> tuple[OutputLayer, ...]:
             "Maximum degree of mantle melting",
             "Largest melt fraction reached by mantle rising isentropically up to the base of "
             "the lithosphere (0 where the lid is deeper than the solidus)",
+            calibration=(
+                "potential temperature, water content or lid depth outside the melting table "
+                "(Katz et al. 2003 parameterization, 0-13 GPa), or no lithosphere base"
+            ),
         ),
         OutputLayer(
             "melt_thickness_km",
@@ -79,6 +83,10 @@ def _decompression_outputs(params) -> tuple[OutputLayer, ...]:
             "fraction over depth from the solidus to the lithosphere base (McKenzie & Bickle "
             "1988); realised where the mantle rises (ridges, rifts, back-arcs, plumes; see "
             "melting_mechanism)",
+            calibration=(
+                "potential temperature, water content or lid depth outside the melting table "
+                "(Katz et al. 2003 parameterization, 0-13 GPa), or no lithosphere base"
+            ),
         ),
         OutputLayer(
             "axis_melt_thickness_km",
@@ -229,6 +237,7 @@ def _crustal_outputs(params) -> tuple[OutputLayer, ...]:
             "Melt fraction at the Moho from the water-saturated granite solidus and the "
             "muscovite, biotite and hornblende dehydration-melting reactions (0 for oceanic "
             "crust)",
+            calibration="Moho pressure outside the wet granite solidus calibration (0.1-3.5 GPa)",
         ),
         OutputLayer(
             "moho_temperature_flag",

@@ -8,10 +8,15 @@ import numpy as np
 
 from geomelt.algorithms.base import Algorithm
 from geomelt.layers import OutputLayer
-from geomelt.parameters import MineralScreeningParameters
-from geomelt.physics.screening import MINERAL_SYSTEMS, mineral_screening
+from geomelt.parameters import GeothermalScreeningParameters, MineralScreeningParameters
+from geomelt.physics.screening import (
+    HEAT_SOURCE_OUTPUTS,
+    MINERAL_SYSTEMS,
+    heat_source_factors,
+    mineral_screening,
+)
 
-__all__ = ["MINERAL_SCREENING"]
+__all__ = ["GEOTHERMAL_SCREENING", "MINERAL_SCREENING"]
 
 
 def _inputs() -> tuple[str, ...]:
@@ -82,4 +87,105 @@ MINERAL_SCREENING = Algorithm(
         "Bonham-Carter, G.F. (1994) Geographic Information Systems for Geoscientists. Pergamon",
     ),
     keywords=("mineral systems", "prospectivity", "screening", "fuzzy logic"),
+)
+
+
+# ----------------------------------------------------------------------------- geothermal
+_HEAT_TITLES = {
+    "heat_source_temperature_factor": (
+        "Heat source: temperature factor",
+        "Membership of the temperature at the screening depth: 0 at "
+        "heat_source_temperature_zero_c, 1 at heat_source_temperature_full_c",
+    ),
+    "heat_source_direct_use_factor": (
+        "Heat source: direct-use isotherm factor",
+        "Membership of the direct-use isotherm depth: 1 at or above isotherm_depth_full_km, "
+        "0 at or below isotherm_depth_zero_km",
+    ),
+    "heat_source_binary_factor": (
+        "Heat source: binary-power isotherm factor",
+        "Membership of the binary-power isotherm depth (same depth breakpoints)",
+    ),
+    "heat_source_flash_factor": (
+        "Heat source: flash-steam isotherm factor",
+        "Membership of the flash-steam isotherm depth (same depth breakpoints)",
+    ),
+    "heat_source_melt_proximity_factor": (
+        "Heat source: melt proximity factor",
+        "Membership of the distance to the nearest predicted melt: 1 within "
+        "melt_proximity_full_km, 0 beyond melt_proximity_zero_km",
+    ),
+    "heat_source_crustal_melt_factor": (
+        "Heat source: crustal melt factor",
+        "Membership of the lower-crust melt fraction: 0 with none, 1 from "
+        "heat_source_crustal_melt_full_fraction",
+    ),
+    "heat_source_score": (
+        "Geothermal heat-source score",
+        "Weighted combination of the six heat-source factors (0-1); rises with heat. A "
+        "screening score, not a resource estimate",
+    ),
+}
+
+
+def _heat_outputs(params) -> tuple[OutputLayer, ...]:
+    distance = OutputLayer(
+        "distance_to_melt_km",
+        "km",
+        "Distance to the nearest predicted melt",
+        "Great-circle distance (mean-radius sphere) to the nearest cell where any melting "
+        "mechanism acts; 0 on melting cells; nodata where the region has no melt",
+    )
+    return (distance,) + tuple(
+        OutputLayer(name, "1", *_HEAT_TITLES[name]) for name in HEAT_SOURCE_OUTPUTS
+    )
+
+
+def _heat_compute(arrays: Mapping, params: GeothermalScreeningParameters) -> dict:
+    valid = np.isfinite(arrays["crustal_thickness_km"])
+    out = heat_source_factors(
+        arrays["screening_temperature_c"],
+        arrays["direct_use_isotherm_depth_km"],
+        arrays["binary_isotherm_depth_km"],
+        arrays["flash_isotherm_depth_km"],
+        arrays["distance_to_melt_km"],
+        arrays["crustal_melt_fraction"],
+        params,
+    )
+    distance = np.asarray(arrays["distance_to_melt_km"], dtype=np.float32)
+    out["distance_to_melt_km"] = np.where(np.isfinite(distance), distance, np.nan)
+    return {k: np.where(valid, v, np.nan).astype(np.float32) for k, v in out.items()}
+
+
+GEOTHERMAL_SCREENING = Algorithm(
+    id="geothermal_screening",
+    version="1.0",
+    title="Geothermal heat-source screening",
+    description=(
+        "Transparent factors (each its own layer) and a weighted score of how much heat lies "
+        "within drilling reach: temperature at the screening depth, depths of the direct-use, "
+        "binary and flash isotherms, distance to the nearest predicted melt and crustal melt. "
+        "Fuzzy memberships with user-adjustable breakpoints and weights; the score never "
+        "falls as a cell gets hotter."
+    ),
+    inputs=(
+        "crustal_thickness_km",
+        "screening_temperature_c",
+        "direct_use_isotherm_depth_km",
+        "binary_isotherm_depth_km",
+        "flash_isotherm_depth_km",
+        "distance_to_melt_km",
+        "crustal_melt_fraction",
+    ),
+    parameters=GeothermalScreeningParameters,
+    outputs=_heat_outputs,
+    compute=_heat_compute,
+    references=(
+        "Zadeh, L.A. (1965) Fuzzy sets. Information and Control 8, 338-353",
+        "An, P., Moon, W.M. & Rencz, A. (1991) Application of fuzzy set theory to integrated "
+        "mineral exploration. Can. J. Explor. Geophys. 27, 1-11",
+        "Bonham-Carter, G.F. (1994) Geographic Information Systems for Geoscientists. Pergamon",
+        "Moritz, H. (2000) Geodetic Reference System 1980. J. Geodesy 74, 128-133",
+    ),
+    keywords=("geothermal", "heat source", "screening", "fuzzy logic"),
 )

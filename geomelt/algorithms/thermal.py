@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 from collections.abc import Mapping
 
 import numpy as np
@@ -45,6 +46,10 @@ def _outputs(params: ThermalParameters) -> tuple[OutputLayer, ...]:
             "Depth where the conductive geotherm meets the mantle adiabat (continents) or the "
             "half-space thermal boundary-layer base (oceanic cells); nodata where deeper than "
             "the search limit",
+            calibration=(
+                "lithosphere base deeper than lab_max_depth_km, or crust producing more heat "
+                "than the surface heat flow carries (Hasterok & Chapman 2011 partition)"
+            ),
         ),
         OutputLayer(
             "moho_heat_flow_mw_m2",
@@ -78,21 +83,71 @@ def _outputs(params: ThermalParameters) -> tuple[OutputLayer, ...]:
         )
         for t in params.isotherms_c
     )
-    return fixed + temps + isos
+    geothermal = (
+        OutputLayer(
+            "screening_temperature_c",
+            "degC",
+            f"Temperature at the geothermal screening depth ({params.screening_temperature_depth_km:g} km)",
+            "Steady-state temperature at screening_temperature_depth_km below the surface, the "
+            "depth scored by the geothermal temperature factor",
+        ),
+        OutputLayer(
+            "direct_use_isotherm_depth_km",
+            "km",
+            f"Depth of the direct-use isotherm ({params.direct_use_isotherm_c:g} degC)",
+            "Shallowest depth of the direct_use_isotherm_c isotherm (district heating, "
+            "industrial heat; common practice)",
+        ),
+        OutputLayer(
+            "binary_isotherm_depth_km",
+            "km",
+            f"Depth of the binary-power isotherm ({params.binary_isotherm_c:g} degC)",
+            "Shallowest depth of the binary_isotherm_c isotherm (binary-cycle power; common "
+            "practice)",
+        ),
+        OutputLayer(
+            "flash_isotherm_depth_km",
+            "km",
+            f"Depth of the flash-steam isotherm ({params.flash_isotherm_c:g} degC)",
+            "Shallowest depth of the flash_isotherm_c isotherm (flash-steam power; common "
+            "practice)",
+        ),
+    )
+    return fixed + temps + isos + geothermal
 
 
 def _compute(arrays: Mapping[str, np.ndarray], params: ThermalParameters) -> dict:
-    state = thermal_state(arrays["crustal_thickness_km"], arrays["heat_flow_mw_m2"], params)
+    # the geothermal screening depth and isotherms ride along with the mapped ones
+    depths = (*params.temperature_depths_km, params.screening_temperature_depth_km)
+    isotherms = (
+        *params.isotherms_c,
+        params.direct_use_isotherm_c,
+        params.binary_isotherm_c,
+        params.flash_isotherm_c,
+    )
+    full = dataclasses.replace(params, temperature_depths_km=depths, isotherms_c=isotherms)
+    state = thermal_state(arrays["crustal_thickness_km"], arrays["heat_flow_mw_m2"], full)
     out = {
         "moho_temperature_c": state["moho_temperature_c"],
         "lab_depth_km": state["lab_depth_km"],
         "moho_heat_flow_mw_m2": state["moho_heat_flow_mw_m2"],
         "oceanic_plate_age_ma": state["plate_age_ma"],
     }
-    for i, d in enumerate(params.temperature_depths_km):
-        out[temperature_layer_name(d)] = state["temperature_at_depths_c"][i]
-    for i, t in enumerate(params.isotherms_c):
-        out[isotherm_layer_name(t)] = state["isotherm_depths_km"][i]
+    # the parameter set may sort and merge the tuples: look each value up by position
+    depth_at = {d: i for i, d in enumerate(full.temperature_depths_km)}
+    isotherm_at = {t: i for i, t in enumerate(full.isotherms_c)}
+    for d in params.temperature_depths_km:
+        out[temperature_layer_name(d)] = state["temperature_at_depths_c"][depth_at[d]]
+    for t in params.isotherms_c:
+        out[isotherm_layer_name(t)] = state["isotherm_depths_km"][isotherm_at[t]]
+    depth = params.screening_temperature_depth_km
+    out["screening_temperature_c"] = state["temperature_at_depths_c"][depth_at[depth]]
+    for name, t in (
+        ("direct_use_isotherm_depth_km", params.direct_use_isotherm_c),
+        ("binary_isotherm_depth_km", params.binary_isotherm_c),
+        ("flash_isotherm_depth_km", params.flash_isotherm_c),
+    ):
+        out[name] = state["isotherm_depths_km"][isotherm_at[t]]
     return out
 
 
@@ -106,7 +161,8 @@ THERMAL_STATE = Algorithm(
         "surface heat flow split into crustal and mantle parts, a mantle adiabat from the "
         "potential temperature below the thermal lithosphere, and half-space cooling for "
         "oceanic cells. Gives Moho temperature, thermal lithosphere base, temperatures at "
-        "chosen depths and depths of chosen isotherms."
+        "chosen depths and depths of chosen isotherms, and the temperature at the geothermal "
+        "screening depth and the depths of the direct-use, binary and flash isotherms."
     ),
     inputs=("crustal_thickness_km", "heat_flow_mw_m2"),
     parameters=ThermalParameters,

@@ -34,16 +34,29 @@ def print_summary(result: RunResult) -> None:
     )
     click.echo(f"grid: {result.grid.describe()}; {result.elapsed_s:.1f} s")
     width = max(len(n) for n in result.stats) + 4
-    click.echo(f"{'output':<{width}} {'min':>10} {'mean':>10} {'max':>10}  unit     nodata %")
+    click.echo(
+        f"{'output':<{width}} {'min':>10} {'mean':>10} {'max':>10}  unit          nodata % "
+        " outside calibration"
+    )
     for name, st in result.stats.items():
         d = st.as_dict()
         total = st.valid_cells + st.nodata_cells
         pct = 100.0 * st.nodata_cells / total if total else 0.0
+        outside = result.outside_calibration.get(name)
         click.echo(
             f"{name + '.tif':<{width}} {_fmt(d['min']):>10} {_fmt(d['mean']):>10} "
-            f"{_fmt(d['max']):>10}  {st.unit:<8} {pct:6.1f}"
+            f"{_fmt(d['max']):>10}  {st.unit:<13} {pct:6.1f}"
+            + (f"  {outside:>19}" if outside is not None else "")
         )
-    click.echo("results.gpkg: run_metadata table (inputs with checksums, parameters, warnings)")
+    if result.melt_production_km3_yr is not None:
+        click.echo(f"melt production of the region: {result.melt_production_km3_yr:.3g} km3/yr")
+    click.echo(
+        "results.gpkg: settings polygons, plate_boundaries (melt production per line), "
+        f"{result.prospects} ranked prospect(s), run_metadata (inputs with checksums, "
+        "parameters, totals, warnings)"
+    )
+    if result.report is not None:
+        click.echo(f"report: {result.report} (open it in a web browser)")
     if result.warnings:
         click.echo(f"{len(result.warnings)} warning(s):")
         for text in result.warnings:

@@ -122,6 +122,50 @@ class RasterGrid:
         lon, lat = _to_wgs84(self.crs.to_wkt()).transform(x, y)
         return np.asarray(lon), np.asarray(lat)
 
+    def cell_area_km2(self, window: Window | None = None) -> np.ndarray:
+        """True (ellipsoidal) area of each cell of a window, km² (2-D float64 array).
+
+        Geographic grids: the exact area of an ellipsoidal quadrangle,
+        ``a²/2 · Δλ · (q(φ2) - q(φ1))`` with Snyder's (1987, eq. 3-12) ``q``.
+        Equal-area projections: the map area of a cell. Other projections: the
+        map area divided by the projection's areal scale factor (pyproj
+        ``Proj.get_factors``), evaluated on a lattice of every 16th cell and
+        interpolated bilinearly (the scale varies slowly across a cell).
+        """
+        if window is None:
+            window = Window(0, 0, self.width, self.height)
+        shape = (int(window.height), int(window.width))
+        kind, value = _area_model(self.crs.to_wkt())
+        if kind == "equal_area":
+            return np.full(shape, abs(self.transform.a * self.transform.e) * value / 1e6)
+        if kind == "geographic":
+            a_m, e = value
+            t = self.transform
+            rows = np.arange(window.row_off, window.row_off + window.height + 1, dtype=np.float64)
+            lat = np.clip(t.f + t.e * rows, -90.0, 90.0)
+            q = _authalic_q(np.radians(lat), e)
+            zone_m2 = 0.5 * a_m**2 * np.abs(np.diff(q)) * math.radians(abs(t.a))
+            return np.broadcast_to((zone_m2 / 1e6)[:, None], shape).copy()
+        # conformal or other projections: nominal area over the areal scale factor
+        step = 16
+        r = np.unique(np.r_[np.arange(0, shape[0], step), shape[0] - 1])
+        c = np.unique(np.r_[np.arange(0, shape[1], step), shape[1] - 1])
+        t = self.transform
+        cols = c[None, :] + window.col_off + 0.5
+        rows = r[:, None] + window.row_off + 0.5
+        x = t.c + t.a * cols + t.b * rows
+        y = t.f + t.d * cols + t.e * rows
+        lon, lat = _to_wgs84(self.crs.to_wkt()).transform(x, y)
+        scale = np.asarray(value.get_factors(lon, lat).areal_scale, dtype=np.float64)
+        nominal_km2 = abs(t.a * t.e) * _linear_factor(self.crs) ** 2 / 1e6
+        lattice = nominal_km2 / scale.reshape(len(r), len(c))
+        rr = np.interp(np.arange(shape[0]), r, np.arange(len(r)))
+        cc = np.interp(np.arange(shape[1]), c, np.arange(len(c)))
+        from scipy.ndimage import map_coordinates
+
+        grid_r, grid_c = np.meshgrid(rr, cc, indexing="ij")
+        return map_coordinates(lattice, [grid_r, grid_c], order=1, mode="nearest")
+
     def same_as(self, other: RasterGrid, rtol: float = 1e-9) -> bool:
         """True when both grids have the same CRS, size and (nearly) the same transform."""
         if (self.width, self.height) != (other.width, other.height):
@@ -154,6 +198,52 @@ def crs_label(crs: CRS | None) -> str:
 
 
 _TRANSFORMERS = threading.local()
+
+
+def _linear_factor(crs) -> float:
+    """Metres per unit of a projected CRS."""
+    factor = crs.linear_units_factor[1] if crs is not None else 1.0
+    return float(factor or 1.0)
+
+
+def _authalic_q(phi_rad: np.ndarray, e: float) -> np.ndarray:
+    """Snyder (1987) eq. 3-12: ``q`` of the authalic latitude (sphere when ``e == 0``)."""
+    sin = np.sin(phi_rad)
+    if e == 0.0:
+        return 2.0 * sin
+    es = e * sin
+    return (1.0 - e * e) * (sin / (1.0 - es * es) - np.log((1.0 - es) / (1.0 + es)) / (2.0 * e))
+
+
+_AREA_MODELS: dict[str, tuple[str, object]] = {}
+_AREA_LOCK = threading.Lock()
+
+
+def _area_model(crs_wkt: str) -> tuple[str, object]:
+    """How cell areas are computed on a CRS: ``("equal_area", m² per unit²)``,
+    ``("geographic", (a_m, e))`` or ``("scaled", pyproj.Proj)``."""
+    with _AREA_LOCK:
+        model = _AREA_MODELS.get(crs_wkt)
+        if model is not None:
+            return model
+        from pyproj import CRS as PCRS
+        from pyproj import Proj
+
+        from geomelt.io.polygons import is_equal_area
+
+        pc = PCRS.from_wkt(crs_wkt)
+        if pc.is_geographic:
+            ell = pc.ellipsoid
+            inv_f = ell.inverse_flattening
+            f = 1.0 / inv_f if inv_f and math.isfinite(inv_f) else 0.0
+            model = ("geographic", (ell.semi_major_metre, math.sqrt(f * (2.0 - f))))
+        elif is_equal_area(pc):
+            unit = float(pc.axis_info[0].unit_conversion_factor) if pc.axis_info else 1.0
+            model = ("equal_area", unit * unit)
+        else:
+            model = ("scaled", Proj(pc))
+        _AREA_MODELS[crs_wkt] = model
+        return model
 
 
 def _to_wgs84(crs_wkt: str):

@@ -16,6 +16,7 @@ from typing import Any
 import numpy as np
 
 from geomelt.algorithms import Algorithm
+from geomelt.layers import NEIGHBOURHOOD_LAYERS
 from geomelt.parameters import ParameterSet, ThermalParameters
 from geomelt.physics.crustal_melting import crustal_pressure_gpa, wet_granite_solidus_c
 from geomelt.physics.decompression import lithostatic_pressure_gpa, melting_column
@@ -104,6 +105,17 @@ def probe_column(
     arrays: dict[str, Any] = {k: np.array([[v]], dtype=np.float64) for k, v in values.items()}
     for key, val in (extra or {}).items():
         arrays[key] = np.array([[val]], dtype=np.float64) if np.isscalar(val) else val
+    # a single cell cannot measure layers that need the whole grid (distance to melt):
+    # the algorithms reading them are left out of a column
+    skipped: set[str] = set()
+    kept = []
+    for alg in algorithms:
+        reads = set(alg.inputs) | set(alg.optional_inputs)
+        if reads & (set(NEIGHBOURHOOD_LAYERS) | skipped):
+            skipped |= {o.name for o in alg.output_layers(parameters[alg.id])}
+            continue
+        kept.append(alg)
+    algorithms = kept
     for alg in algorithms:
         args = {n: arrays[n] for n in alg.inputs}
         args.update({n: arrays[n] for n in alg.optional_inputs if n in arrays})

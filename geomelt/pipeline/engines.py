@@ -28,7 +28,15 @@ from geomelt.errors import GeomeltError
 from geomelt.io.rasters import AlignedRaster
 from geomelt.layers import INPUT_LAYERS
 
-__all__ = ["ENGINES", "WindowComputer", "WindowResult", "iterate_windows", "default_workers"]
+__all__ = [
+    "ENGINES",
+    "SecondPassComputer",
+    "WindowComputer",
+    "WindowResult",
+    "carry_path",
+    "default_workers",
+    "iterate_windows",
+]
 
 ENGINES = ("threads", "serial", "dask")
 """Engine names accepted by :func:`iterate_windows`."""
@@ -47,15 +55,56 @@ def default_workers() -> int:
 
 @dataclass
 class WindowResult:
-    """Outputs of one window and the cells of each input outside its plausible range."""
+    """Outputs of one window, what the second pass needs of it, its totals, and the
+    cells of each input outside its plausible range."""
 
     window: Window
     arrays: dict[str, np.ndarray]
     implausible: dict[str, int] = field(default_factory=dict)
+    carry: dict[str, np.ndarray] = field(default_factory=dict)
+    summaries: dict[str, np.ndarray] = field(default_factory=dict)
+
+
+def _grid_layers(plan, window: Window, names) -> dict[str, np.ndarray]:
+    out: dict[str, np.ndarray] = {}
+    if "cell_lon_deg" in names or "cell_lat_deg" in names:
+        out["cell_lon_deg"], out["cell_lat_deg"] = plan.grid.lonlat(window)
+    if "cell_area_km2" in names:
+        out["cell_area_km2"] = plan.grid.cell_area_km2(window)
+    return out
+
+
+def _run_algorithms(algorithms, arrays: dict, parameters) -> None:
+    for alg in algorithms:
+        args = {n: arrays[n] for n in alg.inputs}
+        args.update({n: arrays[n] for n in alg.optional_inputs if n in arrays})
+        arrays.update(alg.compute(args, parameters[alg.id]))
+
+
+OUTSIDE_CALIBRATION = "outside_calibration:"
+"""Prefix of the summaries counting, per output, valid cells a method left without a value."""
+
+
+def _summaries(plan, arrays: dict, stage) -> dict[str, np.ndarray]:
+    out: dict[str, np.ndarray] = {}
+    for reducer in plan.reducers:
+        if all(n in arrays for n in reducer.inputs):
+            out.update(reducer(arrays))
+    ids = {a.id for a in stage}
+    checked = [o for a, o in plan.outputs if a.id in ids and o.calibration and o.name in arrays]
+    if checked:
+        valid = np.isfinite(arrays["crustal_thickness_km"])
+        if "heat_flow_mw_m2" in arrays:
+            valid &= np.isfinite(arrays["heat_flow_mw_m2"])
+        for o in checked:
+            masked = valid & np.isnan(np.asarray(arrays[o.name], dtype=np.float32))
+            out[OUTSIDE_CALIBRATION + o.name] = np.array([np.count_nonzero(masked)], np.float64)
+    return out
 
 
 class WindowComputer:
-    """Read a window's inputs, run the algorithm chain, return the written outputs.
+    """Read a window's inputs, run the first-pass algorithms, return the written outputs
+    (and what the second pass needs, and the window's totals).
 
     Readers are opened lazily, one set per thread (GDAL datasets must not be
     shared between threads), and closed by :meth:`close`.
@@ -66,7 +115,8 @@ class WindowComputer:
         self._local = threading.local()
         self._opened: list[AlignedRaster] = []
         self._lock = threading.Lock()
-        self._written = [o for _, o in plan.outputs if o.written]
+        first = {a.id for a in plan.stages[0]}
+        self._written = [o for a, o in plan.outputs if o.written and a.id in first]
 
     def _readers(self) -> dict[str, AlignedRaster]:
         readers = getattr(self._local, "readers", None)
@@ -93,19 +143,66 @@ class WindowComputer:
                     with np.errstate(invalid="ignore"):
                         bad = (arr < lo_hi[0]) | (arr > lo_hi[1])
                     implausible[name] = int(np.count_nonzero(bad))
-        if plan.grid_layers:
-            arrays["cell_lon_deg"], arrays["cell_lat_deg"] = plan.grid.lonlat(window)
-        for alg in plan.algorithms:
-            args = {n: arrays[n] for n in alg.inputs}
-            args.update({n: arrays[n] for n in alg.optional_inputs if n in arrays})
-            arrays.update(alg.compute(args, plan.parameters[alg.id]))
-        return WindowResult(window, {o.name: arrays[o.name] for o in self._written}, implausible)
+        arrays.update(_grid_layers(plan, window, plan.grid_layers))
+        _run_algorithms(plan.stages[0], arrays, plan.parameters)
+        return WindowResult(
+            window,
+            {o.name: arrays[o.name] for o in self._written},
+            implausible,
+            carry={n: arrays[n] for n in plan.carry},
+            summaries=_summaries(plan, arrays, plan.stages[0]),
+        )
 
     def close(self) -> None:
         with self._lock:
             for reader in self._opened:
                 reader.close()
             self._opened.clear()
+
+
+def carry_path(carry_dir, window: Window):
+    """File holding a window's first-pass arrays for the second pass."""
+    return carry_dir / f"{int(window.row_off)}_{int(window.col_off)}.npz"
+
+
+class SecondPassComputer:
+    """Second pass: the algorithms that read whole-grid layers (distance to melt).
+
+    Reads what the first pass kept of each window (:func:`carry_path`), adds the
+    neighbourhood layers for the window, runs the second-pass algorithms and
+    returns their written outputs. Runs in this process (its inputs are files
+    of this run's staging folder).
+    """
+
+    def __init__(self, plan, carry_dir, fields: dict):
+        self.plan = plan
+        self.carry_dir = carry_dir
+        self.fields = fields
+        second = {a.id for a in plan.stages[1]}
+        self._written = [o for a, o in plan.outputs if o.written and a.id in second]
+
+    def __call__(self, window: Window) -> WindowResult:
+        from geomelt.pipeline.neighbourhood import melt_mask
+
+        plan = self.plan
+        arrays: dict[str, Any] = dict(plan.vectors)
+        with np.load(carry_path(self.carry_dir, window)) as npz:
+            arrays.update({name: npz[name] for name in npz.files})
+        if "distance_to_melt_km" in self.fields:
+            melting = melt_mask(arrays["melting_mechanism"])
+            arrays["distance_to_melt_km"] = self.fields["distance_to_melt_km"].distance_km(
+                window, melting
+            )
+        arrays.update(_grid_layers(plan, window, plan.grid_layers - set(arrays)))
+        _run_algorithms(plan.stages[1], arrays, plan.parameters)
+        return WindowResult(
+            window,
+            {o.name: arrays[o.name] for o in self._written},
+            summaries=_summaries(plan, arrays, plan.stages[1]),
+        )
+
+    def close(self) -> None:
+        pass
 
 
 def _serial(computer: WindowComputer, windows) -> Iterator[WindowResult]:
@@ -200,7 +297,12 @@ def _dask(plan, windows, scheduler: str, workers: int) -> Iterator[WindowResult]
 
 
 def iterate_windows(
-    plan, windows, engine: str = "threads", workers: int = 0, scheduler: str | None = None
+    plan,
+    windows,
+    engine: str = "threads",
+    workers: int = 0,
+    scheduler: str | None = None,
+    computer=None,
 ) -> Iterator[WindowResult]:
     """Compute every window with the chosen engine, yielding results as they finish.
 
@@ -218,15 +320,20 @@ def iterate_windows(
     scheduler : str, optional
         dask scheduler address (``tcp://host:8786``) or ``"local"`` to start a
         local cluster.
+    computer : callable, optional
+        What to run on each window (default: a first-pass :class:`WindowComputer`);
+        a :class:`SecondPassComputer` always runs in this process (threads).
     """
     if engine not in ENGINES:
         msg = f"unknown engine {engine!r}; choose one of {', '.join(ENGINES)}"
         raise GeomeltError(msg)
     workers = workers or default_workers()
-    if engine == "dask":
+    if engine == "dask" and computer is None:
         yield from _dask(plan, windows, scheduler or "local", workers)
         return
-    computer = WindowComputer(plan)
+    if engine == "dask":
+        engine = "threads"  # the second pass reads this machine's staging folder
+    computer = computer or WindowComputer(plan)
     try:
         if engine == "serial":
             yield from _serial(computer, windows)

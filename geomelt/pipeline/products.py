@@ -28,6 +28,7 @@ from geomelt.io.styles import LayerStyle, style_class_layer, write_layer_styles
 __all__ = [
     "POLYGON_MAX_CELLS",
     "QUICKLOOK_CONTINUOUS",
+    "boundaries_with_production",
     "write_boundaries_layer",
     "write_quicklooks",
     "write_setting_polygons",
@@ -48,6 +49,15 @@ QUICKLOOK_CONTINUOUS = (
     ("melt_thickness_km", "Decompression melt column", "km", "magma"),
     ("wedge_melt_fraction", "Flux melt fraction of the mantle wedge", "1", "magma"),
     ("crustal_melt_fraction", "Crustal melt fraction", "1", "magma"),
+    ("melt_production_m3_km2_yr", "Melt production rate density", "m3 km-2 yr-1", "magma"),
+    ("screening_temperature_c", "Temperature at the geothermal screening depth", "degC", "inferno"),
+    ("distance_to_melt_km", "Distance to the nearest predicted melt", "km", "viridis"),
+    ("heat_source_score", "Geothermal heat-source score", "1", "YlOrRd"),
+    ("porphyry_cu_au_mo_score", "Porphyry Cu-Au-Mo affinity score", "1", "YlOrRd"),
+    ("epithermal_au_ag_score", "Epithermal Au-Ag affinity score", "1", "YlOrRd"),
+    ("magmatic_ni_cu_pge_score", "Magmatic Ni-Cu-PGE affinity score", "1", "YlOrRd"),
+    ("granite_sn_w_li_score", "Granite-related Sn-W-Li affinity score", "1", "YlOrRd"),
+    ("vms_score", "Volcanogenic massive sulfide affinity score", "1", "YlOrRd"),
 )
 """Continuous outputs that get a quick-look map: (layer, title, unit, colour map)."""
 
@@ -108,8 +118,19 @@ def write_setting_polygons(gpkg_path: Path, out_dir: Path) -> int:
     return len(polys)
 
 
-def write_boundaries_layer(gpkg_path: Path, boundaries: gpd.GeoDataFrame) -> int:
-    """Echo the plate boundaries with derived attributes (geodesic length in km)."""
+def boundaries_with_production(
+    boundaries: gpd.GeoDataFrame, segment_production_km3_yr: np.ndarray | None = None
+) -> gpd.GeoDataFrame:
+    """The plate boundaries with their geodesic length and the melt each line makes.
+
+    Columns added: ``boundary_id`` (1-based), ``length_km`` (WGS84 geodesic
+    length), and, when ``segment_production_km3_yr`` is given (one value per row,
+    from :class:`geomelt.pipeline.summaries.SegmentTotals`),
+    ``melt_production_km3_yr`` (melt made by the cells credited to the line) and
+    ``melt_production_km3_km_myr`` (the same per km of line per Myr, the unit of
+    arc and ridge budgets in the literature). Lines of types that make no melt of
+    their own (collision, transform) get nodata (NaN) there.
+    """
     frame = boundaries.copy()
     if len(frame):
         lonlat = frame.to_crs("EPSG:4326")
@@ -119,7 +140,27 @@ def write_boundaries_layer(gpkg_path: Path, boundaries: gpd.GeoDataFrame) -> int
         ]
     else:
         frame["length_km"] = pd.Series(dtype=float)
+    if segment_production_km3_yr is not None:
+        from geomelt.pipeline.summaries import SEGMENT_PRODUCTION
+
+        producing = frame["boundary_type"].isin([t for t, _ in SEGMENT_PRODUCTION]).to_numpy()
+        km3_yr = np.asarray(segment_production_km3_yr, dtype=np.float64)[: len(frame)]
+        length = frame["length_km"].to_numpy(dtype=np.float64)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            per_km_myr = np.where(length > 0, km3_yr / length * 1.0e6, np.nan)
+        frame["melt_production_km3_yr"] = np.where(producing, km3_yr, np.nan)
+        frame["melt_production_km3_km_myr"] = np.where(producing, per_km_myr, np.nan)
     frame.insert(0, "boundary_id", np.arange(1, len(frame) + 1, dtype=np.int32))
+    return frame
+
+
+def write_boundaries_layer(
+    gpkg_path: Path,
+    boundaries: gpd.GeoDataFrame,
+    segment_production_km3_yr: np.ndarray | None = None,
+) -> int:
+    """Echo the plate boundaries with derived attributes (:func:`boundaries_with_production`)."""
+    frame = boundaries_with_production(boundaries, segment_production_km3_yr)
     pyogrio.write_dataframe(
         frame,
         gpkg_path,

@@ -31,6 +31,7 @@ from rasterio.enums import Resampling
 import geomelt
 from geomelt.algorithms import Algorithm, algorithm_chain
 from geomelt.classes import SCHEMES
+from geomelt.constants import CONSTANTS
 from geomelt.errors import (
     GeomeltIOError,
     GeomeltWarning,
@@ -41,12 +42,20 @@ from geomelt.errors import (
 from geomelt.io.config import RunConfig
 from geomelt.io.geopackage import write_run_metadata
 from geomelt.io.geotiff import GeoTiffWriter
+from geomelt.io.prospects import prospect_polygons, standard_screens, write_prospects_layer
 from geomelt.io.rasters import AlignedRaster, RasterGrid, check_raster_values, read_grid
 from geomelt.io.vectors import read_hotspots, read_plate_boundaries
-from geomelt.layers import GRID_LAYERS, INPUT_LAYERS, OutputLayer
+from geomelt.layers import GRID_LAYERS, INPUT_LAYERS, NEIGHBOURHOOD_LAYERS, OutputLayer
 from geomelt.parameters import ParameterSet
-from geomelt.pipeline import products
-from geomelt.pipeline.engines import iterate_windows
+from geomelt.pipeline import products, reporting, summaries
+from geomelt.pipeline.engines import (
+    OUTSIDE_CALIBRATION,
+    SecondPassComputer,
+    carry_path,
+    default_workers,
+    iterate_windows,
+)
+from geomelt.pipeline.neighbourhood import MeltProximityCollector, melt_mask
 from geomelt.tectonics.boundaries import BoundarySet, suggest_tile_km
 from geomelt.tectonics.hotspots import HotspotSet
 
@@ -128,6 +137,13 @@ class RunPlan:
     """Vector inputs as read (GeoDataFrames), for the vector products and maps."""
     warnings: list[str] = field(default_factory=list)
     """Problems found in the inputs that a run can live with (reported with the run's)."""
+    stages: list[list[Algorithm]] = field(default_factory=list)
+    """Algorithms of the first pass, and of the second pass (those that read whole-grid
+    layers such as the distance to melt) when there is one."""
+    carry: tuple[str, ...] = ()
+    """First-pass arrays the second pass reads, kept per window in the staging folder."""
+    reducers: list[Any] = field(default_factory=list)
+    """Totals gathered window by window (:mod:`geomelt.pipeline.summaries`)."""
 
     def as_dict(self) -> dict[str, Any]:
         """JSON-ready summary of the plan."""
@@ -143,6 +159,7 @@ class RunPlan:
             "inputs": {k: str(v) for k, v in {**self.raster_inputs, **self.vector_inputs}.items()},
             "outputs": [f"{o.name}.tif" for _, o in self.outputs if o.written] + [RESULTS_GPKG],
             "block_size": self.block_size,
+            "passes": [[a.id for a in stage] for stage in self.stages],
             "notes": self.notes,
             "warnings": self.warnings,
         }
@@ -158,6 +175,15 @@ class RunResult:
     warnings: list[str]
     grid: RasterGrid
     elapsed_s: float
+    outside_calibration: dict[str, int] = field(default_factory=dict)
+    """Per output: cells with valid inputs its method left without a value (outside its
+    calibrated range)."""
+    report: Path | None = None
+    """The HTML run report."""
+    prospects: int = 0
+    """Prospect polygons written to results.gpkg."""
+    melt_production_km3_yr: float | None = None
+    """Melt made in the whole region per year (when the run computes productivity)."""
 
 
 def _resolve_parameters(config: RunConfig, algorithms: list[Algorithm]) -> dict[str, ParameterSet]:
@@ -262,9 +288,30 @@ def _plan_run(config: RunConfig, algorithm_ids: list[str] | None) -> RunPlan:
             vectors[name] = HotspotSet.from_frame(gdf)
         frames[name] = gdf
         notes.append(f"'{name}': {len(gdf)} feature(s) read and checked")
+    stages, carry = _split_passes(algorithms, set(raster_inputs) | set(vectors))
+    produced = {o.name for alg in algorithms for o in alg.output_layers(params[alg.id])}
+    reducers: list[Any] = []
+    if "setting" in produced:
+        reducers.append(
+            summaries.SettingTotals(
+                tuple(n for n in summaries.PRODUCTION_BY_SETTING if n in produced)
+            )
+        )
+    if "plate_boundaries" in frames and all(
+        layer in produced for _, layer in summaries.SEGMENT_PRODUCTION
+    ):
+        reducers.append(summaries.SegmentTotals(len(frames["plate_boundaries"])))
     grid_layers = {
         n for alg in algorithms for n in alg.inputs + alg.optional_inputs if n in GRID_LAYERS
     }
+    grid_layers |= {n for r in reducers for n in r.inputs if n in GRID_LAYERS}
+    if len(stages) > 1:
+        notes.append(
+            "two passes: " + ", ".join(a.id for a in stages[1]) + " read(s) layers that need "
+            "the whole grid ("
+            + ", ".join(sorted(n for a in stages[1] for n in a.inputs if n in NEIGHBOURHOOD_LAYERS))
+            + ")"
+        )
 
     outputs: list[tuple[Algorithm, OutputLayer]] = []
     seen: dict[str, str] = {}
@@ -290,7 +337,47 @@ def _plan_run(config: RunConfig, algorithm_ids: list[str] | None) -> RunPlan:
         grid_layers=grid_layers,
         frames=frames,
         warnings=value_warnings,
+        stages=stages,
+        carry=carry,
+        reducers=reducers,
     )
+
+
+def _split_passes(
+    algorithms: list[Algorithm], available: set[str]
+) -> tuple[list[list[Algorithm]], tuple[str, ...]]:
+    """First-pass and second-pass algorithms, and the arrays the second pass reads.
+
+    An algorithm runs in the second pass when it reads a whole-grid layer
+    (:data:`geomelt.layers.NEIGHBOURHOOD_LAYERS`) or an output of a second-pass
+    algorithm.
+    """
+    second: list[Algorithm] = []
+    second_outputs: set[str] = set()
+    for alg in algorithms:
+        reads = set(alg.inputs) | set(alg.optional_inputs)
+        if reads & set(NEIGHBOURHOOD_LAYERS) or reads & second_outputs:
+            second.append(alg)
+            second_outputs |= {o.name for o in alg.output_layers()}
+    if not second:
+        return [list(algorithms)], ()
+    first = [a for a in algorithms if a not in second]
+    first_outputs = {o.name for a in first for o in a.output_layers()}
+    carry: list[str] = []
+    for alg in second:
+        for name in alg.inputs + alg.optional_inputs:
+            if name in NEIGHBOURHOOD_LAYERS:
+                wanted = NEIGHBOURHOOD_LAYERS[name].sources
+            elif name in GRID_LAYERS or name in second_outputs:
+                continue
+            elif name in INPUT_LAYERS and INPUT_LAYERS[name].kind != "raster":
+                continue
+            else:
+                wanted = (name,)
+            for n in wanted:
+                if n not in carry and (n in first_outputs or n in available):
+                    carry.append(n)
+    return [first, second], tuple(carry)
 
 
 def _cell_km(grid: RasterGrid) -> float:
@@ -424,6 +511,8 @@ def execute_run(
     readers: dict[str, AlignedRaster] = {}
     implausible: dict[str, int] = {}
     flagged: dict[str, int] = {}
+    totals: dict[str, np.ndarray] = {}
+    by_name = {o.name: o for _, o in written}
     try:
         with warnings.catch_warnings(record=True) as caught, rasterio.Env(GDAL_CACHEMAX=256):
             warnings.simplefilter("always")
@@ -467,22 +556,55 @@ def execute_run(
                 reader.close()
             readers.clear()
             windows = list(grid.windows(plan.block_size))
-            bar = _progress_bar(len(windows), progress)
-            results = iterate_windows(plan, windows, engine, workers, scheduler)
-            for i, result in enumerate(results):
-                arrays, window = result.arrays, result.window
-                for name, n in result.implausible.items():
-                    implausible[name] = implausible.get(name, 0) + n
-                for _, out in written:
-                    writers[out.name].write(arrays[out.name], window)
-                    stats[out.name].update(arrays[out.name], out.nodata)
-                    if out.flag_message:
-                        flagged[out.name] = flagged.get(out.name, 0) + int(
-                            np.count_nonzero(arrays[out.name] == 1)
-                        )
-                bar.update(1)
-                if on_window is not None:
-                    on_window(i + 1, len(windows))
+            n_steps = len(windows) * len(plan.stages)
+            bar = _progress_bar(n_steps, progress)
+            two_pass = len(plan.stages) > 1
+            carry_dir = staging / "carry"
+            collector = None
+            if two_pass:
+                carry_dir.mkdir()
+                if any("distance_to_melt_km" in a.inputs for a in plan.stages[1]):
+                    collector = MeltProximityCollector(grid)
+            done = 0
+
+            def consume(results) -> None:
+                nonlocal done
+                for result in results:
+                    arrays, window = result.arrays, result.window
+                    for name, n in result.implausible.items():
+                        implausible[name] = implausible.get(name, 0) + n
+                    for name, values in arrays.items():
+                        out = by_name[name]
+                        writers[name].write(values, window)
+                        stats[name].update(values, out.nodata)
+                        if out.flag_message:
+                            flagged[name] = flagged.get(name, 0) + int(
+                                np.count_nonzero(values == 1)
+                            )
+                    summaries.add_summaries(totals, result.summaries)
+                    if result.carry:
+                        np.savez(carry_path(carry_dir, window), **result.carry)
+                        if collector is not None:
+                            collector.add(window, melt_mask(result.carry["melting_mechanism"]))
+                    done += 1
+                    bar.update(1)
+                    if on_window is not None:
+                        on_window(done, n_steps)
+
+            consume(iterate_windows(plan, windows, engine, workers, scheduler))
+            if two_pass:
+                fields = {}
+                if collector is not None:
+                    field_ = collector.finish(workers or default_workers())
+                    fields["distance_to_melt_km"] = field_
+                    proximity_note = (
+                        f"distance to melt measured to {field_.n_edge_cells} melt-edge cell(s) on "
+                        f"a lattice of every {field_.stride} cell(s)"
+                    )
+                    plan.notes.append(proximity_note)
+                second = SecondPassComputer(plan, carry_dir, fields)
+                consume(iterate_windows(plan, windows, engine, workers, scheduler, computer=second))
+                shutil.rmtree(carry_dir, ignore_errors=True)
             bar.close()
             files = []
             for w in writers.values():
@@ -509,16 +631,61 @@ def execute_run(
         if (ready / "setting.tif").exists() and "setting" in stats:
             n = products.write_setting_polygons(gpkg_stage, ready)
             log.info("settings: %d polygon(s)", n)
+        boundaries = None
         if "plate_boundaries" in plan.frames:
-            products.write_boundaries_layer(gpkg_stage, plan.frames["plate_boundaries"])
-        write_run_metadata(gpkg_stage, _metadata_records(plan, input_meta, stats, run_warnings))
+            segment_km3_yr = totals.get("segment_production_km3_yr")
+            boundaries = products.boundaries_with_production(
+                plan.frames["plate_boundaries"], segment_km3_yr
+            )
+            products.write_boundaries_layer(
+                gpkg_stage, plan.frames["plate_boundaries"], segment_km3_yr
+            )
+        prospects = None
+        screens = [s for s in standard_screens(*_screen_parameters(plan)) if s.score_layer in stats]
+        if screens:
+            min_area = _first_parameter(plan, "prospect_min_area_km2")
+            prospects = prospect_polygons(ready, screens, min_area)
+            write_prospects_layer(gpkg_stage, prospects)
+            log.info("prospects: %d polygon(s)", len(prospects))
+        outside = {
+            name.removeprefix(OUTSIDE_CALIBRATION): int(values[0])
+            for name, values in totals.items()
+            if name.startswith(OUTSIDE_CALIBRATION)
+        }
+        records = _metadata_records(plan, input_meta, stats, run_warnings)
+        records += reporting.totals_as_records(totals)
+        for _, out in written:
+            if out.name in outside:
+                entry = {"cells": outside[out.name], "where": out.calibration}
+                records.append(("outside_calibration", f"{out.name}.tif", json.dumps(entry)))
+        write_run_metadata(gpkg_stage, records)
         pairs = products.write_quicklooks(
             staging,
             ready,
             boundaries=plan.frames.get("plate_boundaries"),
             hotspots=plan.frames.get("hotspots"),
         )
+        figures = [(_quicklook_title(staged), staged) for staged, _ in pairs]
+        report_stage = staging / reporting.REPORT_NAME
+        final_names = [p.relative_to(ready).as_posix() for p in files] + [RESULTS_GPKG]
+        reporting.write_run_report(
+            report_stage,
+            plan=plan,
+            out_dir=out_dir,
+            figures=figures,
+            stats=stats,
+            totals=totals,
+            boundaries=boundaries,
+            prospects=prospects,
+            warnings=run_warnings,
+            input_meta=input_meta,
+            elapsed_s=time.perf_counter() - t0,
+            outside_calibration=outside,
+            files=[n for n in final_names if n.endswith((".tif", ".gpkg"))],
+        )
         files.extend(products.move_into_place(pairs))
+        os.replace(report_stage, ready / reporting.REPORT_NAME)
+        files.append(ready / reporting.REPORT_NAME)
         os.replace(gpkg_stage, ready / RESULTS_GPKG)
         files.append(ready / RESULTS_GPKG)
         files = products.move_into_place([(p, out_dir / p.relative_to(ready)) for p in files])
@@ -533,6 +700,7 @@ def execute_run(
         shutil.rmtree(staging, ignore_errors=True)
     for text in run_warnings:
         log.warning(text)
+    total = totals.get("melt_production_m3_km2_yr_km3_yr")
     return RunResult(
         out_dir=out_dir,
         files=files,
@@ -540,7 +708,33 @@ def execute_run(
         warnings=run_warnings,
         grid=grid,
         elapsed_s=time.perf_counter() - t0,
+        outside_calibration=outside,
+        report=out_dir / reporting.REPORT_NAME,
+        prospects=0 if prospects is None else len(prospects),
+        melt_production_km3_yr=None if total is None else float(total.sum()),
     )
+
+
+def _screen_parameters(plan: RunPlan) -> tuple[Any, Any, Any]:
+    """Geothermal, mineral and thermal parameter sets of the run (None when not run)."""
+    p = plan.parameters
+    return (
+        p.get("geothermal_screening"),
+        p.get("mineral_screening"),
+        p.get("thermal_state"),
+    )
+
+
+def _first_parameter(plan: RunPlan, name: str) -> Any:
+    for params in plan.parameters.values():
+        if hasattr(params, name):
+            return getattr(params, name)
+    return CONSTANTS[name].value
+
+
+def _quicklook_title(png: Path) -> str:
+    with rasterio.open(png.parents[1] / "ready" / f"{png.stem}.tif") as ds:
+        return ds.tags(1).get("long_name") or png.stem
 
 
 def _progress_bar(total: int, enabled: bool):
