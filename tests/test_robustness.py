@@ -390,3 +390,31 @@ def test_geotiff_writer_round_trip(array, description, unit, tags):
             for key, value in tags.items():
                 assert ds.tags(1)[key] == value
                 assert ds.tags()[key] == value
+
+
+# --------------------------------------------------------------- outside calibration
+def test_cells_outside_a_calibrated_range_are_counted_not_clipped(tmp_path):
+    # The lithosphere base is searched to lab_max_depth_km; with 150 km, the cold craton
+    # of the sample region (about 200 km under 40 mW/m2, Hasterok & Chapman 2011) lies
+    # beyond it. Those cells must be nodata, counted in the summary, the run metadata and
+    # the report, and never set to the search limit.
+    from tests.conftest import SAMPLE_LAYERS
+
+    out = tmp_path / "out"
+    args = ["run", str(SAMPLE_LAYERS / "region.toml"), "-o", str(out), "-a", "thermal_state"]
+    res = CliRunner().invoke(main, [*args, "-p", "lab_max_depth_km=150"])
+    assert res.exit_code == 0, res.output
+    with rasterio.open(out / "lab_depth_km.tif") as ds:
+        lab = ds.read(1)
+    with rasterio.open(SAMPLE_LAYERS / "crustal_thickness_km.tif") as ds:
+        valid = ds.read(1, masked=True).mask == False  # noqa: E712
+    outside = int(np.count_nonzero(np.isnan(lab) & valid))
+    assert outside > 100
+    assert np.nanmax(lab) < 150.0  # nothing clipped to the limit
+    line = next(t for t in res.stdout.splitlines() if t.startswith("lab_depth_km.tif"))
+    assert line.split()[-1] == str(outside)
+    meta = pyogrio.read_dataframe(out / RESULTS_GPKG, layer="run_metadata")
+    rec = meta[(meta["section"] == "outside_calibration") & (meta["key"] == "lab_depth_km.tif")]
+    entry = json.loads(rec["value"].iloc[0])
+    assert entry["cells"] == outside and "lab_max_depth_km" in entry["where"]
+    assert "outside calibration" in (out / "report.html").read_text(encoding="utf-8")

@@ -28,7 +28,9 @@ from geomelt.io.styles import LayerStyle, style_class_layer, write_layer_styles
 __all__ = [
     "POLYGON_MAX_CELLS",
     "QUICKLOOK_CONTINUOUS",
+    "PROSPECT_COLOURS",
     "boundaries_with_production",
+    "style_prospects_layer",
     "write_boundaries_layer",
     "write_quicklooks",
     "write_setting_polygons",
@@ -192,39 +194,93 @@ _BOUNDARY_COLOURS = {
 
 def _boundary_styles() -> tuple[str, str]:
     """Categorised line styles (QML for QGIS, SLD 1.0) by boundary_type."""
+    return _categorised_styles("plate_boundaries", "boundary_type", _BOUNDARY_COLOURS, "line")
+
+
+PROSPECT_COLOURS = {
+    "geothermal_heat_source": "#d7301f",
+    "porphyry_cu_au_mo": "#8c510a",
+    "epithermal_au_ag": "#dfc27d",
+    "magmatic_ni_cu_pge": "#01665e",
+    "granite_sn_w_li": "#762a83",
+    "vms": "#2166ac",
+}
+"""Outline colour of each screen's prospects in the layer style (fill: the same, 25 % opaque)."""
+
+
+def _categorised_styles(layer: str, field: str, colours: dict, geometry: str) -> tuple[str, str]:
+    """Categorised styles (QML for QGIS, SLD 1.0) of ``layer`` by the text ``field``.
+
+    ``geometry`` is ``"line"`` (coloured lines) or ``"polygon"`` (a translucent fill with
+    a solid outline of the colour, labelled by ``rank`` in QGIS).
+    """
     import xml.etree.ElementTree as ET
 
-    q = ET.Element("qgis", version="3.22.0", styleCategories="Symbology")
-    r = ET.SubElement(q, "renderer-v2", type="categorizedSymbol", attr="boundary_type")
+    def rgb(colour: str) -> str:
+        return ",".join(str(int(colour[k : k + 2], 16)) for k in (1, 3, 5))
+
+    q = ET.Element("qgis", version="3.22.0", styleCategories="Symbology|Labeling")
+    r = ET.SubElement(q, "renderer-v2", type="categorizedSymbol", attr=field)
     cats = ET.SubElement(r, "categories")
     syms = ET.SubElement(r, "symbols")
-    for i, (name, colour) in enumerate(_BOUNDARY_COLOURS.items()):
+    for i, (name, colour) in enumerate(colours.items()):
         ET.SubElement(cats, "category", value=name, label=name, symbol=str(i), render="true")
-        s = ET.SubElement(syms, "symbol", type="line", name=str(i), alpha="1")
-        layer = ET.SubElement(s, "layer", {"class": "SimpleLine"})
-        rgb = ",".join(str(int(colour[k : k + 2], 16)) for k in (1, 3, 5))
-        for key, value in (("line_color", rgb + ",255"), ("line_width", "0.8")):
-            ET.SubElement(layer, "prop", k=key, v=value)
+        if geometry == "line":
+            s = ET.SubElement(syms, "symbol", type="line", name=str(i), alpha="1")
+            lyr = ET.SubElement(s, "layer", {"class": "SimpleLine"})
+            props = (("line_color", rgb(colour) + ",255"), ("line_width", "0.8"))
+        else:
+            s = ET.SubElement(syms, "symbol", type="fill", name=str(i), alpha="1")
+            lyr = ET.SubElement(s, "layer", {"class": "SimpleFill"})
+            props = (
+                ("color", rgb(colour) + ",64"),
+                ("outline_color", rgb(colour) + ",255"),
+                ("outline_width", "0.6"),
+                ("style", "solid"),
+            )
+        for key, value in props:
+            ET.SubElement(lyr, "prop", k=key, v=value)
+    if geometry == "polygon":
+        labeling = ET.SubElement(q, "labeling", type="simple")
+        settings = ET.SubElement(labeling, "settings")
+        ET.SubElement(settings, "text-style", fieldName="rank", fontSize="9", textColor="0,0,0,255")
     qml = ET.tostring(q, encoding="unicode")
     ns = "http://www.opengis.net/sld"
     ogc = "http://www.opengis.net/ogc"
     sld = ET.Element(f"{{{ns}}}StyledLayerDescriptor", version="1.0.0", attrib={})
     nl = ET.SubElement(sld, f"{{{ns}}}NamedLayer")
-    ET.SubElement(nl, f"{{{ns}}}Name").text = "plate_boundaries"
+    ET.SubElement(nl, f"{{{ns}}}Name").text = layer
     us = ET.SubElement(nl, f"{{{ns}}}UserStyle")
     fts = ET.SubElement(us, f"{{{ns}}}FeatureTypeStyle")
-    for name, colour in _BOUNDARY_COLOURS.items():
+    for name, colour in colours.items():
         rule = ET.SubElement(fts, f"{{{ns}}}Rule")
         ET.SubElement(rule, f"{{{ns}}}Name").text = name
         flt = ET.SubElement(rule, f"{{{ogc}}}Filter")
         eq = ET.SubElement(flt, f"{{{ogc}}}PropertyIsEqualTo")
-        ET.SubElement(eq, f"{{{ogc}}}PropertyName").text = "boundary_type"
+        ET.SubElement(eq, f"{{{ogc}}}PropertyName").text = field
         ET.SubElement(eq, f"{{{ogc}}}Literal").text = name
-        ls = ET.SubElement(rule, f"{{{ns}}}LineSymbolizer")
-        st = ET.SubElement(ls, f"{{{ns}}}Stroke")
-        ET.SubElement(st, f"{{{ns}}}CssParameter", name="stroke").text = colour
-        ET.SubElement(st, f"{{{ns}}}CssParameter", name="stroke-width").text = "2"
+        if geometry == "line":
+            ls = ET.SubElement(rule, f"{{{ns}}}LineSymbolizer")
+            st = ET.SubElement(ls, f"{{{ns}}}Stroke")
+            ET.SubElement(st, f"{{{ns}}}CssParameter", name="stroke").text = colour
+            ET.SubElement(st, f"{{{ns}}}CssParameter", name="stroke-width").text = "2"
+        else:
+            ps = ET.SubElement(rule, f"{{{ns}}}PolygonSymbolizer")
+            fill = ET.SubElement(ps, f"{{{ns}}}Fill")
+            ET.SubElement(fill, f"{{{ns}}}CssParameter", name="fill").text = colour
+            ET.SubElement(fill, f"{{{ns}}}CssParameter", name="fill-opacity").text = "0.25"
+            st = ET.SubElement(ps, f"{{{ns}}}Stroke")
+            ET.SubElement(st, f"{{{ns}}}CssParameter", name="stroke").text = colour
+            ET.SubElement(st, f"{{{ns}}}CssParameter", name="stroke-width").text = "1.5"
     return qml, ET.tostring(sld, encoding="unicode")
+
+
+def style_prospects_layer(gpkg_path: Path) -> None:
+    """Register the categorised style of the ``prospects`` layer (by screen) in ``gpkg_path``."""
+    qml, sld = _categorised_styles("prospects", "screen", PROSPECT_COLOURS, "polygon")
+    write_layer_styles(
+        gpkg_path, [LayerStyle("prospects", "geomelt prospects by screen", qml, sld)]
+    )
 
 
 def write_quicklooks(

@@ -28,11 +28,11 @@ REPORT_NAME = "report.html"
 """File name of the run report in the output folder."""
 
 _PRODUCTION_COLUMNS = (
-    ("melt_production_m3_km2_yr_km3_yr", "all melt (km³/yr)"),
-    ("ridge_melt_production_m3_km2_yr_km3_yr", "ridges (km³/yr)"),
-    ("rift_melt_production_m3_km2_yr_km3_yr", "rifts (km³/yr)"),
-    ("arc_melt_production_m3_km2_yr_km3_yr", "arcs (km³/yr)"),
-    ("plume_melt_production_m3_km2_yr_km3_yr", "plumes (km³/yr)"),
+    ("melt_production_m3_km2_yr_km3_yr", "all melt"),
+    ("ridge_melt_production_m3_km2_yr_km3_yr", "ridges"),
+    ("rift_melt_production_m3_km2_yr_km3_yr", "rifts"),
+    ("arc_melt_production_m3_km2_yr_km3_yr", "arcs"),
+    ("plume_melt_production_m3_km2_yr_km3_yr", "plumes"),
 )
 _TOP_LINES = 25
 _TOP_PROSPECTS = 20
@@ -61,10 +61,10 @@ def _setting_table(totals: dict[str, np.ndarray]) -> ReportTable | None:
     total_row: list[Any] = ["whole region", whole, 100.0 if whole > 0 else None]
     total_row += [float(totals[key].sum()) for key in present]
     rows.append(total_row)
-    columns = ["setting", "area (km²)", "share of area (%)"]
+    columns = ["setting", "area (km²)", "share (%)"]
     columns += [title for key, title in _PRODUCTION_COLUMNS if key in present]
     return ReportTable(
-        "Area and melt production per setting",
+        "Area and melt production per setting (melt in km³ per year)",
         columns,
         rows,
         note=(
@@ -163,34 +163,27 @@ def _outputs_table(stats, outside: dict[str, int]) -> ReportTable:
     rows = []
     for name, st in stats.items():
         d = st.as_dict()
+        cells = d["valid_cells"] + d["nodata_cells"]
         rows.append(
             [
                 f"{name}.tif",
-                d["unit"],
+                d["unit"].replace(" ", "\u00a0"),
                 d["min"],
                 d["mean"],
                 d["max"],
-                d["valid_cells"],
-                d["nodata_cells"],
-                outside.get(name, 0),
+                100.0 * d["nodata_cells"] / cells if cells else None,
+                outside.get(name),
             ]
         )
     return ReportTable(
         "Output rasters",
-        [
-            "file",
-            "unit",
-            "min",
-            "mean",
-            "max",
-            "cells with a value",
-            "nodata cells",
-            "outside calibration",
-        ],
+        ["file", "unit", "min", "mean", "max", "nodata (%)", "outside calibration (cells)"],
         rows,
         note=(
             "'outside calibration' counts cells with valid inputs that a method left without "
-            "a value because they fall outside its calibrated range (never clipped)."
+            "a value because they fall outside its calibrated range (never clipped); a dash "
+            "means the method has no such range. Distances and rates of boundaries are nodata "
+            "beyond the search reach, plate age on continents."
         ),
     )
 

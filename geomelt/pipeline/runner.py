@@ -646,6 +646,7 @@ def execute_run(
             min_area = _first_parameter(plan, "prospect_min_area_km2")
             prospects = prospect_polygons(ready, screens, min_area)
             write_prospects_layer(gpkg_stage, prospects)
+            products.style_prospects_layer(gpkg_stage)
             log.info("prospects: %d polygon(s)", len(prospects))
         outside = {
             name.removeprefix(OUTSIDE_CALIBRATION): int(values[0])
