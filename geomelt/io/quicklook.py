@@ -15,14 +15,14 @@ name and moved into place.
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 from affine import Affine
 from matplotlib.backends.backend_agg import FigureCanvasAgg
-from matplotlib.collections import LineCollection
+from matplotlib.collections import LineCollection, PolyCollection
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch, Rectangle
@@ -617,6 +617,107 @@ def continuous_map_png(
         path=out,
         size_px=size,
         legend_labels=(),
+        scale_bar_km=km,
+        north=north,
+        north_angle_deg=angle,
+        decimation=m.decimation,
+    )
+
+
+def prospects_map_png(
+    path,
+    setting: np.ndarray,
+    transform,
+    crs,
+    prospects,
+    colours: Mapping[str, str],
+    titles: Mapping[str, str],
+    boundaries=None,
+    hotspots=None,
+    *,
+    footnote: str | None = None,
+    label_top: int = 15,
+    figsize: Sequence[float] = (10.0, 7.5),
+    dpi: int = 100,
+) -> QuicklookInfo:
+    """Quick-look PNG of the ranked prospects over a faded setting map.
+
+    Parameters
+    ----------
+    setting : 2-D integer array
+        Setting class codes (:data:`geomelt.classes.SETTING`), drawn faded as context.
+    prospects : GeoDataFrame
+        The ``prospects`` layer (``screen``, ``rank``, polygons).
+    colours, titles : mapping of screen key to str
+        Outline colour and legend title of each screen.
+    label_top : int
+        Prospects ranked up to this are labelled with their rank.
+
+    Other parameters as in :func:`class_map_png`.
+    """
+    from geomelt.classes import SETTING
+
+    arr = np.asarray(setting)
+    m = _Map(arr, transform, crs, "Ranked prospects", tuple(figsize), dpi)
+    small = _orient(_decimate_classes(arr, m.decimation), m.transform)
+    lut = np.zeros((256, 4), dtype=np.uint8)
+    for entry in SETTING.entries:
+        r, g, b, _ = entry.rgba
+        lut[entry.code] = (r, g, b, 70)  # faded context
+    m.show(lut[np.clip(small, 0, 255)])
+    frame = _as_gdf(prospects, m.pc)
+    handles, labels = [], []
+    if frame is not None:
+        import shapely
+
+        for key in colours:
+            part = frame[frame["screen"] == key]
+            if part.empty:
+                continue
+            rings = []
+            for geom in part.geometry:
+                for poly in shapely.get_parts(geom):
+                    rings.append(np.asarray(poly.exterior.coords)[:, :2])
+            colour = colours[key]
+            m.ax.add_collection(
+                PolyCollection(
+                    rings, facecolors=colour + "40", edgecolors=colour, linewidths=1.3, zorder=2
+                )
+            )
+            handles.append(Patch(facecolor=colour + "40", edgecolor=colour, linewidth=1.3))
+            labels.append(f"{titles.get(key, key)} ({len(part)})")
+        for _, row in frame[frame["rank"] <= label_top].iterrows():
+            pt = row.geometry.representative_point()
+            m.ax.annotate(
+                str(int(row["rank"])),
+                (pt.x, pt.y),
+                fontsize=7,
+                fontweight="bold",
+                ha="center",
+                va="center",
+                zorder=6,
+                bbox={"boxstyle": "circle,pad=0.15", "fc": "white", "ec": "#333333", "lw": 0.6},
+            )
+    legend = m.fig.legend(
+        handles,
+        labels,
+        loc="upper left",
+        bbox_to_anchor=(m.box.x1 + 0.02, m.box.y1),
+        fontsize=8,
+        frameon=False,
+        title="Prospects by screen (count)",
+        title_fontsize=9,
+    )
+    m.overlays(boundaries, hotspots)
+    m.extra_legend()
+    km = m.scale_bar()
+    north, angle = m.north_arrow()
+    m.footnote(footnote)
+    out, size = m.save(path, "Ranked prospects", footnote)
+    return QuicklookInfo(
+        path=out,
+        size_px=size,
+        legend_labels=tuple(t.get_text() for t in legend.get_texts()),
         scale_bar_km=km,
         north=north,
         north_angle_deg=angle,

@@ -21,7 +21,7 @@ import geomelt
 from geomelt.classes import MAGMA_TYPE, MELTING_MECHANISM, SCHEMES, SETTING
 from geomelt.io.geopackage import GPKG_DATASET_OPTIONS
 from geomelt.io.polygons import class_polygons, zonal_summary
-from geomelt.io.quicklook import class_map_png, continuous_map_png
+from geomelt.io.quicklook import class_map_png, continuous_map_png, prospects_map_png
 from geomelt.io.rasters import read_reduced
 from geomelt.io.styles import LayerStyle, style_class_layer, write_layer_styles
 
@@ -284,7 +284,7 @@ def style_prospects_layer(gpkg_path: Path) -> None:
 
 
 def write_quicklooks(
-    staging: Path, out_dir: Path, boundaries=None, hotspots=None
+    staging: Path, out_dir: Path, boundaries=None, hotspots=None, prospects=None
 ) -> list[tuple[Path, Path]]:
     """PNG quick-looks of the class maps and key continuous maps.
 
@@ -337,6 +337,26 @@ def write_quicklooks(
             footnote=footnote,
         )
         pairs.append((qdir / f"{name}.png", out_dir / "quicklook" / f"{name}.png"))
+    if prospects is not None and (out_dir / "setting.tif").exists():
+        from geomelt.io.prospects import standard_screens
+
+        arr, tr, _ = read_reduced(out_dir / "setting.tif", categorical=True)
+        with rasterio.open(out_dir / "setting.tif") as ds:
+            crs = ds.crs
+        titles = {s.key: s.title for s in standard_screens()}
+        prospects_map_png(
+            qdir / "prospects.png",
+            arr,
+            tr,
+            crs,
+            prospects,
+            PROSPECT_COLOURS,
+            titles,
+            boundaries=boundaries,
+            hotspots=hotspots,
+            footnote=footnote,
+        )
+        pairs.append((qdir / "prospects.png", out_dir / "quicklook" / "prospects.png"))
     return pairs
 
 

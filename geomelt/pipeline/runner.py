@@ -665,6 +665,7 @@ def execute_run(
             ready,
             boundaries=plan.frames.get("plate_boundaries"),
             hotspots=plan.frames.get("hotspots"),
+            prospects=prospects,
         )
         figures = [(_quicklook_title(staged), staged) for staged, _ in pairs]
         report_stage = staging / reporting.REPORT_NAME
@@ -734,7 +735,10 @@ def _first_parameter(plan: RunPlan, name: str) -> Any:
 
 
 def _quicklook_title(png: Path) -> str:
-    with rasterio.open(png.parents[1] / "ready" / f"{png.stem}.tif") as ds:
+    tif = png.parents[1] / "ready" / f"{png.stem}.tif"
+    if not tif.exists():
+        return png.stem.replace("_", " ").capitalize()
+    with rasterio.open(tif) as ds:
         return ds.tags(1).get("long_name") or png.stem
 
 

@@ -121,3 +121,33 @@ def test_helpers():
     assert north_angle("EPSG:4326", 10, 50) == 0.0
     assert north_angle(CRS, 500_000, 7_000_000) == pytest.approx(0.0, abs=1e-6)
     assert north_angle(None, 0, 0) is None
+
+
+def test_prospects_map_labels_screens_and_ranks(tmp_path):
+    import geopandas as gpd
+    from affine import Affine
+    from shapely.geometry import box
+
+    from geomelt.io.quicklook import prospects_map_png
+
+    setting = np.full((40, 50), 1, dtype=np.uint8)
+    setting[:, 25:] = 6
+    transform = Affine(10_000.0, 0, 0.0, 0, -10_000.0, 400_000.0)
+    crs = "+proj=laea +lat_0=-45 +lon_0=-140 +datum=WGS84 +units=m"
+    frame = gpd.GeoDataFrame(
+        {"screen": ["porphyry_cu_au_mo", "geothermal_heat_source"], "rank": [1, 2]},
+        geometry=[box(50_000, 50_000, 150_000, 150_000), box(300_000, 200_000, 400_000, 300_000)],
+        crs=crs,
+    )
+    info = prospects_map_png(
+        tmp_path / "p.png",
+        setting,
+        transform,
+        crs,
+        frame,
+        {"geothermal_heat_source": "#d7301f", "porphyry_cu_au_mo": "#8c510a", "vms": "#2166ac"},
+        {"geothermal_heat_source": "Geothermal heat source", "porphyry_cu_au_mo": "Porphyry"},
+    )
+    assert info.path.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    # screens without prospects are left out of the legend; counts are shown
+    assert info.legend_labels == ("Geothermal heat source (1)", "Porphyry (1)")
