@@ -18,7 +18,7 @@ from typing import Any
 
 import numpy as np
 
-from geomelt.layers import INPUT_LAYERS, OutputLayer
+from geomelt.layers import INPUT_LAYERS, NEIGHBOURHOOD_LAYERS, OutputLayer
 from geomelt.parameters import ParameterSet
 
 __all__ = ["Algorithm"]
@@ -101,6 +101,13 @@ class Algorithm:
                 }
                 desc = layer.description
                 unit = ""
+            elif name in NEIGHBOURHOOD_LAYERS:
+                schema = {"type": "string", "format": "uri", "contentMediaType": _GEOTIFF_MEDIA}
+                desc = (
+                    f"{NEIGHBOURHOOD_LAYERS[name].description}. Built by the run from the whole "
+                    f"grid of {', '.join(NEIGHBOURHOOD_LAYERS[name].sources)}, between its passes"
+                )
+                unit = NEIGHBOURHOOD_LAYERS[name].unit
             else:
                 schema = {"type": "string", "format": "uri", "contentMediaType": _GEOTIFF_MEDIA}
                 desc = f"Layer '{name}' produced by another geomelt algorithm in the same run"

@@ -93,7 +93,9 @@ def print_report(plan: RunPlan, out_state: str) -> list[str]:
     for alg in plan.algorithms:
         click.echo(f"  {alg.id} {alg.version}: {alg.title}")
     written = [o.name for _, o in plan.outputs if o.written]
-    click.echo(f"outputs: {len(written)} GeoTIFF(s) and {RESULTS_GPKG}")
+    click.echo(
+        f"outputs: {len(written)} GeoTIFF(s), {RESULTS_GPKG}, report.html and quicklook/*.png"
+    )
     click.echo("  " + ", ".join(f"{n}.tif" for n in written))
     click.echo(f"output folder: {out_state}")
     for note in plan.notes:

@@ -157,7 +157,8 @@ class RunPlan:
             },
             "algorithms": [a.id for a in self.algorithms],
             "inputs": {k: str(v) for k, v in {**self.raster_inputs, **self.vector_inputs}.items()},
-            "outputs": [f"{o.name}.tif" for _, o in self.outputs if o.written] + [RESULTS_GPKG],
+            "outputs": [f"{o.name}.tif" for _, o in self.outputs if o.written]
+            + [RESULTS_GPKG, "report.html"],
             "block_size": self.block_size,
             "passes": [[a.id for a in stage] for stage in self.stages],
             "notes": self.notes,
