@@ -144,7 +144,26 @@ def test_algorithms_and_describe():
     assert doc["inputs"]["crust_conductivity_w_m_k"]["schema"]["default"] == 2.5
     assert doc["outputs"]["lab_depth_km"]["schema"]["x-nodata"] is None
     res = CliRunner().invoke(main, ["describe", "no_such_thing"])
-    assert res.exit_code == 1 and "thermal_state" in res.output
+    assert res.exit_code == 2 and "thermal_state" in res.output
+
+
+def test_selected_algorithms_accept_parameters_of_the_others(tiny_region, tmp_path):
+    # one configuration serves partial runs: a parameter of an algorithm not run is checked
+    # but unused; a bad value is still refused, and so is an unknown algorithm id
+    out = tmp_path / "o"
+    res = invoke("run", tiny_region, "-o", out, "-a", "thermal_state", "-p", "vms_weight_magma=2")
+    assert res.exit_code == 0, res.output
+    res = CliRunner().invoke(
+        main,
+        ["run", str(tiny_region), "-o", str(tmp_path / "b"), "-a", "thermal_state"]
+        + ["-p", "vms_weight_magma=-1"],
+    )
+    assert res.exit_code == 2 and "vms_weight_magma" in res.output
+    res = CliRunner().invoke(
+        main, ["run", str(tiny_region), "-o", str(tmp_path / "c"), "-a", "no_such_step"]
+    )
+    assert res.exit_code == 2 and "geomelt algorithms" in res.output
+    assert not (tmp_path / "c").exists()
 
 
 @pytest.mark.parametrize("flag", ["--version", "--help"])

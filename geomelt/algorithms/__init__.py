@@ -16,7 +16,7 @@ from geomelt.algorithms.productivity import MELT_PRODUCTIVITY
 from geomelt.algorithms.screening import GEOTHERMAL_SCREENING, MINERAL_SCREENING
 from geomelt.algorithms.tectonics import BOUNDARY_PROXIMITY, TECTONIC_SETTING
 from geomelt.algorithms.thermal import THERMAL_STATE
-from geomelt.errors import GeomeltError
+from geomelt.errors import ConfigError, GeomeltError
 from geomelt.layers import GRID_LAYERS, INPUT_LAYERS, NEIGHBOURHOOD_LAYERS
 
 __all__ = ["Algorithm", "algorithm_chain", "get_algorithm", "registered_algorithms"]
@@ -58,8 +58,11 @@ def get_algorithm(algorithm_id: str) -> Algorithm:
     """Look an algorithm up by id; the error lists the known ids."""
     algs = registered_algorithms()
     if algorithm_id not in algs:
-        msg = f"unknown algorithm {algorithm_id!r}; known: {', '.join(algs)}"
-        raise GeomeltError(msg)
+        msg = (
+            f"unknown algorithm {algorithm_id!r}; known: {', '.join(algs)}. Run "
+            "'geomelt algorithms' to list them with their titles."
+        )
+        raise ConfigError(msg)
     return algs[algorithm_id]
 
 

@@ -29,7 +29,7 @@ import rasterio
 from rasterio.enums import Resampling
 
 import geomelt
-from geomelt.algorithms import Algorithm, algorithm_chain
+from geomelt.algorithms import Algorithm, algorithm_chain, registered_algorithms
 from geomelt.classes import SCHEMES
 from geomelt.constants import CONSTANTS
 from geomelt.errors import (
@@ -189,7 +189,9 @@ class RunResult:
 
 def _resolve_parameters(config: RunConfig, algorithms: list[Algorithm]) -> dict[str, ParameterSet]:
     known: dict[str, str] = {}
-    for alg in algorithms:
+    # parameters of every registered algorithm are known, so that one configuration serves
+    # runs of a few algorithms (-a) too; those of algorithms not run are validated and unused
+    for alg in list(algorithms) + list(registered_algorithms().values()):
         for f in dataclasses.fields(alg.parameters):
             known.setdefault(f.name, alg.id)
     unknown = sorted(set(config.parameters) - set(known))
@@ -203,6 +205,10 @@ def _resolve_parameters(config: RunConfig, algorithms: list[Algorithm]) -> dict[
             "each algorithm's parameters with units and valid ranges."
         )
         raise ParameterError(msg)
+    chosen = {alg.id for alg in algorithms}
+    for alg in registered_algorithms().values():
+        if alg.id not in chosen:  # refuse bad values even where they go unused
+            alg.parameters.from_mapping(config.parameters)
     return {alg.id: alg.parameters.from_mapping(config.parameters) for alg in algorithms}
 
 
