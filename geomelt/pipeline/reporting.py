@@ -242,7 +242,7 @@ def build_run_report(
             "Quick-look maps at reduced resolution; the full-resolution layers are the "
             "GeoTIFFs and results.gpkg beside this report."
         ],
-        figures=[ReportFigure(title, path) for title, path in figures],
+        figures=[ReportFigure(title, path) for title, path in figures if path.stem != "prospects"],
     )
     sections.append(maps)
     production = ReportSection("Settings and melt production")
@@ -262,7 +262,17 @@ def build_run_report(
         sections.append(production)
     table = _prospects_table(prospects)
     if table is not None:
-        sections.append(ReportSection("Prospects", tables=[table]))
+        section = ReportSection("Prospects", tables=[table])
+        section.figures = [
+            ReportFigure(
+                "Ranked prospects",
+                path,
+                "Outlines coloured by screen over the faded setting map; numbers are ranks.",
+            )
+            for _, path in figures
+            if path.stem == "prospects"
+        ]
+        sections.append(section)
     sections.append(
         ReportSection("Output layers", tables=[_outputs_table(stats, outside_calibration or {})])
     )
