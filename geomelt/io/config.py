@@ -14,7 +14,7 @@ The file is parsed as data only (TOML has no expressions). Layout::
 
     [run]
     reference_grid = "crustal_thickness_km"        # which input defines the grid
-    block_size = 512                               # window size in cells
+    block_size = 256                               # window size in cells
 """
 
 from __future__ import annotations
@@ -37,7 +37,7 @@ __all__ = ["RUN_OPTIONS", "TABLES", "RunConfig", "load_config", "parse_value"]
 
 RUN_OPTIONS: dict[str, tuple[type, Any, str]] = {
     "reference_grid": (str, "crustal_thickness_km", "input raster that defines the output grid"),
-    "block_size": (int, 512, "window size in cells (multiple of 16)"),
+    "block_size": (int, 256, "window size in cells (multiple of 16)"),
 }
 """Keys of the ``[run]`` table: (type, default, meaning)."""
 

@@ -13,6 +13,7 @@ fill values, an empty layer) with a message that says how to convert them.
 from __future__ import annotations
 
 import dataclasses
+import functools
 import logging
 import math
 import threading
@@ -117,9 +118,10 @@ class RasterGrid:
     def lonlat(self, window: Window | None = None) -> tuple[np.ndarray, np.ndarray]:
         """Cell-centre longitude and latitude (degrees, WGS84) for a window."""
         x, y = self.cell_centres(window)
-        if self.crs.to_epsg() == 4326:
+        wkt = self.crs.to_wkt()
+        if _is_wgs84_lonlat(wkt):
             return x, y
-        lon, lat = _to_wgs84(self.crs.to_wkt()).transform(x, y)
+        lon, lat = _to_wgs84(wkt).transform(x, y)
         return np.asarray(lon), np.asarray(lat)
 
     def cell_area_km2(self, window: Window | None = None) -> np.ndarray:
@@ -244,6 +246,13 @@ def _area_model(crs_wkt: str) -> tuple[str, object]:
             model = ("scaled", Proj(pc))
         _AREA_MODELS[crs_wkt] = model
         return model
+
+
+@functools.lru_cache(maxsize=32)
+def _is_wgs84_lonlat(crs_wkt: str) -> bool:
+    """True when the CRS is EPSG:4326 (cached: identifying a CRS costs tens of ms, too much
+    to repeat for every window)."""
+    return CRS.from_wkt(crs_wkt).to_epsg() == 4326
 
 
 def _to_wgs84(crs_wkt: str):

@@ -2,13 +2,19 @@
 
 Every engine runs the same :class:`WindowComputer` on the same windows, so the
 pixels do not depend on the engine, the number of workers or the window order.
-Results come back to the calling thread, which alone writes the files; at most
-a few windows per worker are in flight, so memory stays bounded whatever the
-grid size.
+Results come back to the calling thread, which alone writes the files; one
+window per worker is computed at a time and at most one finished window waits
+for the writer, and inside a window each array is dropped as soon as no later
+algorithm, output, total or second pass reads it, so memory stays bounded
+whatever the grid size.
 """
 
 from __future__ import annotations
 
+import ctypes
+import ctypes.util
+import functools
+import gc
 import hashlib
 import os
 import pickle
@@ -36,13 +42,35 @@ __all__ = [
     "carry_path",
     "default_workers",
     "iterate_windows",
+    "release_free_memory",
 ]
 
 ENGINES = ("threads", "serial", "dask")
 """Engine names accepted by :func:`iterate_windows`."""
 
-GDAL_CACHE_MB = 128
-"""GDAL block cache per process, MB (bounded so memory does not grow with the grid)."""
+GDAL_CACHE_MB = 32
+"""GDAL block cache per process, MB. Every output tile is written whole and once, so a
+small cache only makes GDAL compress and write tiles sooner; a large one held up to its
+size of finished, not yet compressed tiles of the ~100 outputs."""
+
+
+def release_free_memory() -> None:
+    """Collect garbage and hand freed heap memory back to the system (glibc
+    ``malloc_trim``; elsewhere only the collection). Called between the phases of a run,
+    so what a window phase freed does not stay resident under the next phase."""
+    gc.collect()
+    trim = _malloc_trim()
+    if trim is not None:
+        trim(0)
+
+
+@functools.cache
+def _malloc_trim():
+    try:
+        libc = ctypes.CDLL(ctypes.util.find_library("c") or "libc.so.6")
+        return libc.malloc_trim
+    except (OSError, AttributeError):  # not glibc
+        return None
 
 
 def default_workers() -> int:
@@ -74,11 +102,46 @@ def _grid_layers(plan, window: Window, names) -> dict[str, np.ndarray]:
     return out
 
 
-def _run_algorithms(algorithms, arrays: dict, parameters) -> None:
-    for alg in algorithms:
+def _drop_schedule(algorithms, keep) -> list[frozenset[str]]:
+    """Per algorithm of a stage, the arrays no later algorithm reads: dropped after it ran
+    (unless in ``keep``: written outputs, what the second pass and the totals read)."""
+    last_use: dict[str, int] = {}
+    for i, alg in enumerate(algorithms):
+        for n in (*alg.inputs, *alg.optional_inputs):
+            last_use[n] = i
+    schedule = []
+    for i, _alg in enumerate(algorithms):
+        later = {n for n, j in last_use.items() if j > i}
+        schedule.append(frozenset(later) | frozenset(keep))
+    return schedule
+
+
+def _run_algorithms(algorithms, arrays: dict, parameters, schedule=None) -> None:
+    """Run a stage on one window's arrays; with a ``schedule`` (:func:`_drop_schedule`),
+    drop every array (not a vector layer) still needed by nothing after each algorithm."""
+    for i, alg in enumerate(algorithms):
         args = {n: arrays[n] for n in alg.inputs}
         args.update({n: arrays[n] for n in alg.optional_inputs if n in arrays})
         arrays.update(alg.compute(args, parameters[alg.id]))
+        del args
+        if schedule is not None:
+            needed = schedule[i]
+            for name in [n for n, v in arrays.items() if isinstance(v, np.ndarray)]:
+                if name not in needed:
+                    del arrays[name]
+
+
+def _kept(plan, stage, written) -> set[str]:
+    """Arrays of a window a stage must keep to its end: its written outputs, what the
+    second pass reads, what the totals and the calibration counts read."""
+    keep = {o.name for o in written} | set(plan.carry)
+    for reducer in plan.reducers:
+        keep |= set(reducer.inputs)
+    ids = {a.id for a in stage}
+    calibrated = [o.name for a, o in plan.outputs if a.id in ids and o.calibration]
+    if calibrated:
+        keep |= {*calibrated, "crustal_thickness_km", "heat_flow_mw_m2"}
+    return keep
 
 
 OUTSIDE_CALIBRATION = "outside_calibration:"
@@ -117,6 +180,7 @@ class WindowComputer:
         self._lock = threading.Lock()
         first = {a.id for a in plan.stages[0]}
         self._written = [o for a, o in plan.outputs if o.written and a.id in first]
+        self._schedule = _drop_schedule(plan.stages[0], _kept(plan, plan.stages[0], self._written))
 
     def _readers(self) -> dict[str, AlignedRaster]:
         readers = getattr(self._local, "readers", None)
@@ -144,7 +208,7 @@ class WindowComputer:
                         bad = (arr < lo_hi[0]) | (arr > lo_hi[1])
                     implausible[name] = int(np.count_nonzero(bad))
         arrays.update(_grid_layers(plan, window, plan.grid_layers))
-        _run_algorithms(plan.stages[0], arrays, plan.parameters)
+        _run_algorithms(plan.stages[0], arrays, plan.parameters, self._schedule)
         return WindowResult(
             window,
             {o.name: arrays[o.name] for o in self._written},
@@ -180,6 +244,7 @@ class SecondPassComputer:
         self.fields = fields
         second = {a.id for a in plan.stages[1]}
         self._written = [o for a, o in plan.outputs if o.written and a.id in second]
+        self._schedule = _drop_schedule(plan.stages[1], _kept(plan, plan.stages[1], self._written))
 
     def __call__(self, window: Window) -> WindowResult:
         from geomelt.pipeline.neighbourhood import melt_mask
@@ -194,7 +259,7 @@ class SecondPassComputer:
                 window, melting
             )
         arrays.update(_grid_layers(plan, window, plan.grid_layers - set(arrays)))
-        _run_algorithms(plan.stages[1], arrays, plan.parameters)
+        _run_algorithms(plan.stages[1], arrays, plan.parameters, self._schedule)
         return WindowResult(
             window,
             {o.name: arrays[o.name] for o in self._written},
@@ -211,23 +276,31 @@ def _serial(computer: WindowComputer, windows) -> Iterator[WindowResult]:
 
 
 def _threads(computer: WindowComputer, windows, workers: int) -> Iterator[WindowResult]:
+    """One window per worker thread at a time; a finished window is handed over (and the
+    next one started) as soon as the caller asks, so at most ``workers`` windows are
+    computed and one is written at any moment."""
     if workers <= 1:
         yield from _serial(computer, windows)
         return
-    in_flight = 2 * workers
-    pending: deque = deque()
+    pending: set = set()
     with ThreadPoolExecutor(max_workers=workers, thread_name_prefix="geomelt") as pool:
         it = iter(windows)
         for w in it:
-            pending.append(pool.submit(computer, w))
-            if len(pending) >= in_flight:
-                done, _ = wait(pending, return_when=FIRST_COMPLETED)
-                for fut in list(pending):
-                    if fut in done:
-                        pending.remove(fut)
-                        yield fut.result()
-        while pending:
-            yield pending.popleft().result()
+            pending.add(pool.submit(computer, w))
+            if len(pending) >= workers:
+                break
+        finished: deque = deque()
+        while pending or finished:
+            if not finished:
+                done, pending = wait(pending, return_when=FIRST_COMPLETED)
+                finished.extend(done)
+                del done
+            result = finished.popleft().result()
+            nxt = next(it, None)
+            if nxt is not None:
+                pending.add(pool.submit(computer, nxt))
+            yield result
+            del result
 
 
 # ----------------------------------------------------------------------------- dask

@@ -49,11 +49,13 @@ from geomelt.layers import GRID_LAYERS, INPUT_LAYERS, NEIGHBOURHOOD_LAYERS, Outp
 from geomelt.parameters import ParameterSet
 from geomelt.pipeline import products, reporting, summaries
 from geomelt.pipeline.engines import (
+    GDAL_CACHE_MB,
     OUTSIDE_CALIBRATION,
     SecondPassComputer,
     carry_path,
     default_workers,
     iterate_windows,
+    release_free_memory,
 )
 from geomelt.pipeline.neighbourhood import MeltProximityCollector, melt_mask
 from geomelt.tectonics.boundaries import BoundarySet, suggest_tile_km
@@ -521,7 +523,10 @@ def execute_run(
     totals: dict[str, np.ndarray] = {}
     by_name = {o.name: o for _, o in written}
     try:
-        with warnings.catch_warnings(record=True) as caught, rasterio.Env(GDAL_CACHEMAX=256):
+        with (
+            warnings.catch_warnings(record=True) as caught,
+            rasterio.Env(GDAL_CACHEMAX=GDAL_CACHE_MB),
+        ):
             warnings.simplefilter("always")
             for name, path in sorted(plan.raster_inputs.items()):
                 resampling = Resampling[INPUT_LAYERS[name].resampling]
@@ -593,12 +598,15 @@ def execute_run(
                         np.savez(carry_path(carry_dir, window), **result.carry)
                         if collector is not None:
                             collector.add(window, melt_mask(result.carry["melting_mechanism"]))
+                    # Let go of the window's arrays before waiting for the next one.
+                    result = arrays = values = None
                     done += 1
                     bar.update(1)
                     if on_window is not None:
                         on_window(done, n_steps)
 
             consume(iterate_windows(plan, windows, engine, workers, scheduler))
+            release_free_memory()
             if two_pass:
                 fields = {}
                 if collector is not None:
@@ -612,12 +620,15 @@ def execute_run(
                 second = SecondPassComputer(plan, carry_dir, fields)
                 consume(iterate_windows(plan, windows, engine, workers, scheduler, computer=second))
                 shutil.rmtree(carry_dir, ignore_errors=True)
+                fields = second = collector = None
+                release_free_memory()
             bar.close()
             files = []
             for w in writers.values():
                 files.append(w.finish())
                 files.extend(w.sidecars)
             writers.clear()
+            release_free_memory()
         seen: set[str] = set(run_warnings)
         for w in caught:
             text = str(w.message)
