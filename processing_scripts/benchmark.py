@@ -481,7 +481,7 @@ def child_io_floor(
     }
     writers = {}
     files = []
-    with rasterio.Env(GDAL_CACHEMAX=256):
+    with rasterio.Env(GDAL_CACHEMAX=engines.GDAL_CACHE_MB):  # as execute_run
         for alg, o in written:
             writers[o.name] = GeoTiffWriter(
                 out / f"{o.name}.tif",
