@@ -363,3 +363,18 @@ def test_report_is_self_contained_and_complete(demo_out):
     ):
         assert heading in html, heading
     assert "Halvane" in html  # a ridge line of the invented region in the per-line table
+
+
+def test_geothermal_reach_areas_in_the_report(demo_out):
+    # The sample ridge is young ocean floor: its whole setting has the flash-steam isotherm
+    # (200 degC) within 3 km (half-space cooling, Turcotte & Schubert 2002 section 4-16);
+    # the cold craton has none. Areas are true cell areas (equal-area grid: 100 km2 each).
+    html = (demo_out / "report.html").read_text(encoding="utf-8")
+    assert "Ground with geothermal temperatures within 3 km of the surface" in html
+    with rasterio.open(demo_out / "flash_isotherm_depth_km.tif") as ds:
+        flash = ds.read(1)
+    with rasterio.open(demo_out / "setting.tif") as ds:
+        setting = ds.read(1)
+    ridge = setting == 2
+    assert np.count_nonzero(flash[ridge] <= 3.0) / np.count_nonzero(ridge) > 0.99
+    assert value_at(demo_out, "flash_isotherm_depth_km", FEATURES["m"]) > 6.0

@@ -76,6 +76,41 @@ def _setting_table(totals: dict[str, np.ndarray]) -> ReportTable | None:
     )
 
 
+def _reach_table(plan, totals: dict[str, np.ndarray]) -> ReportTable | None:
+    from geomelt.pipeline.summaries import GEOTHERMAL_REACH_LAYERS
+
+    keys = [f"reach_area_km2:{layer}" for _, layer in GEOTHERMAL_REACH_LAYERS]
+    if not all(k in totals for k in keys) or "setting_area_km2" not in totals:
+        return None
+    thermal = plan.parameters["thermal_state"]
+    reach = thermal.screening_temperature_depth_km
+    temps = (thermal.direct_use_isotherm_c, thermal.binary_isotherm_c, thermal.flash_isotherm_c)
+    labels = SETTING.labels()
+    area = totals["setting_area_km2"]
+    rows = []
+    for code in np.flatnonzero(area > 0):
+        values = [float(totals[k][code]) for k in keys]
+        if any(v > 0 for v in values):
+            rows.append([labels.get(int(code), f"code {code}"), *values])
+    rows.sort(key=lambda r: -r[1])
+    rows.append(["whole region", *(float(totals[k].sum()) for k in keys)])
+    columns = ["setting"] + [
+        f"{name} {t:g} °C (km²)"
+        for (name, _), t in zip(GEOTHERMAL_REACH_LAYERS, temps, strict=True)
+    ]
+    return ReportTable(
+        f"Ground with geothermal temperatures within {reach:g} km of the surface",
+        columns,
+        rows,
+        note=(
+            "Area where each isotherm lies at most screening_temperature_depth_km deep, from "
+            "the steady-state geotherm; thresholds are common practice for direct use, binary "
+            "and flash plants. Steady-state temperatures ignore fluid circulation, so they "
+            "screen for heat, not for a reservoir."
+        ),
+    )
+
+
 def _lines_table(boundaries) -> ReportTable | None:
     if boundaries is None or "melt_production_km3_km_myr" not in boundaries:
         return None
@@ -260,6 +295,9 @@ def build_run_report(
         production.tables.append(lines)
     if production.tables:
         sections.append(production)
+    table = _reach_table(plan, totals)
+    if table is not None:
+        sections.append(ReportSection("Geothermal heat within reach", tables=[table]))
     table = _prospects_table(prospects)
     if table is not None:
         section = ReportSection("Prospects", tables=[table])

@@ -306,6 +306,11 @@ def _plan_run(config: RunConfig, algorithm_ids: list[str] | None) -> RunPlan:
                 tuple(n for n in summaries.PRODUCTION_BY_SETTING if n in produced)
             )
         )
+    if "setting" in produced and all(
+        layer in produced for _, layer in summaries.GEOTHERMAL_REACH_LAYERS
+    ):
+        reach = params["thermal_state"].screening_temperature_depth_km
+        reducers.append(summaries.GeothermalReach(reach))
     if "plate_boundaries" in frames and all(
         layer in produced for _, layer in summaries.SEGMENT_PRODUCTION
     ):

@@ -18,7 +18,9 @@ import numpy as np
 from geomelt.classes import CLASS_NODATA
 
 __all__ = [
+    "GEOTHERMAL_REACH_LAYERS",
     "PRODUCTION_BY_SETTING",
+    "GeothermalReach",
     "SEGMENT_PRODUCTION",
     "SettingTotals",
     "SegmentTotals",
@@ -106,6 +108,43 @@ class SegmentTotals:
                     : self.n_features
                 ]
         return {"segment_production_km3_yr": total}
+
+
+GEOTHERMAL_REACH_LAYERS = (
+    ("direct use", "direct_use_isotherm_depth_km"),
+    ("binary power", "binary_isotherm_depth_km"),
+    ("flash steam", "flash_isotherm_depth_km"),
+)
+"""Isotherm-depth layers whose area within drilling reach is totalled per setting."""
+
+
+@dataclass(frozen=True)
+class GeothermalReach:
+    """Area of each setting where each geothermal isotherm lies within ``reach_km``.
+
+    Returns ``reach_area_km2:<isotherm layer>`` (256,) per layer of
+    :data:`GEOTHERMAL_REACH_LAYERS`.
+    """
+
+    reach_km: float
+
+    @property
+    def inputs(self) -> tuple[str, ...]:
+        return ("setting", "cell_area_km2", *(layer for _, layer in GEOTHERMAL_REACH_LAYERS))
+
+    def __call__(self, arrays: Mapping[str, np.ndarray]) -> dict[str, np.ndarray]:
+        codes = np.asarray(arrays["setting"]).ravel().astype(np.intp)
+        area = np.asarray(arrays["cell_area_km2"], dtype=np.float64).ravel()
+        keep = codes != CLASS_NODATA
+        out = {}
+        for _, layer in GEOTHERMAL_REACH_LAYERS:
+            depth = np.asarray(arrays[layer], dtype=np.float64).ravel()
+            with np.errstate(invalid="ignore"):
+                ok = keep & (depth <= self.reach_km)
+            out[f"reach_area_km2:{layer}"] = np.bincount(
+                codes[ok], weights=area[ok], minlength=256
+            )[:256]
+        return out
 
 
 def add_summaries(total: dict[str, np.ndarray], part: Mapping[str, np.ndarray]) -> None:
