@@ -276,6 +276,7 @@ def test_regional_totals_in_run_metadata(demo_out):
     totals = meta[meta["section"] == "total"]
     ridge = json.loads(totals.loc[totals["key"] == "mid-ocean ridge", "value"].iloc[0])
     assert ridge["area_km2"] > 0 and ridge["ridge_melt_production_km3_yr"] > 0
+    assert ridge["flash_isotherm_within_reach_km2"] <= ridge["area_km2"]
     area = sum(json.loads(v)["area_km2"] for v in totals["value"])
     assert area == pytest.approx(4000.0 * 3000.0, rel=1e-6)  # equal-area grid, every cell
 

@@ -352,5 +352,9 @@ def totals_as_records(totals: dict[str, np.ndarray]) -> list[tuple[str, str, str
                     entry[key.removesuffix("_m3_km2_yr_km3_yr") + "_km3_yr"] = float(
                         totals[key][code]
                     )
+            for key, values in totals.items():
+                if key.startswith("reach_area_km2:"):
+                    layer = key.split(":", 1)[1].removesuffix("_depth_km")
+                    entry[f"{layer}_within_reach_km2"] = float(values[code])
             recs.append(("total", labels.get(int(code), str(code)), json.dumps(entry)))
     return recs
