@@ -308,15 +308,25 @@ _WORKER_CACHE: dict[str, WindowComputer] = {}
 _WORKER_LOCK = threading.Lock()
 
 
-def _dask_window(config_blob: bytes, key: str, algorithm_ids, window_tuple) -> WindowResult:
-    """Runs on a dask worker: rebuild (once per worker) the plan, compute one window."""
+WORKER_MALLOC_ENV = {
+    "MALLOC_MMAP_THRESHOLD_": str(32 * 2**20),
+    "MALLOC_TRIM_THRESHOLD_": str(64 * 2**20),
+}
+"""glibc heap settings of local dask workers (set before they start). dask's default
+(``MALLOC_TRIM_THRESHOLD_=65536``) also freezes glibc's mmap threshold at 128 kB, so every
+array of a window was a fresh ``mmap`` whose pages the kernel zeroed again: on 2 cores
+that system time made the dask engine take about twice as long as the thread engine.
+These are the values glibc itself settles on for a process that allocates such arrays."""
+
+
+def _dask_window(plan_blob: bytes, key: str, window_tuple) -> WindowResult:
+    """Runs on a dask worker: unpickle (once per worker) the client's plan, compute one
+    window."""
     with _WORKER_LOCK:
         computer = _WORKER_CACHE.get(key)
         if computer is None:
-            from geomelt.pipeline.runner import plan_run
-
-            config = pickle.loads(config_blob)  # noqa: S301 - our own object, from our client
-            computer = _WORKER_CACHE[key] = WindowComputer(plan_run(config, algorithm_ids))
+            plan = pickle.loads(plan_blob)  # noqa: S301 - our own object, from our client
+            computer = _WORKER_CACHE[key] = WindowComputer(plan)
     return computer(Window(*window_tuple))
 
 
@@ -331,26 +341,34 @@ def _dask(plan, windows, scheduler: str, workers: int) -> Iterator[WindowResult]
         raise GeomeltError(msg) from None
     cluster = None
     if scheduler in ("", "local"):
-        cluster = LocalCluster(
-            n_workers=max(1, workers),
-            threads_per_worker=1,
-            processes=True,
-            dashboard_address=None,
-            env={"GDAL_CACHEMAX": str(GDAL_CACHE_MB), "GDAL_NUM_THREADS": "1"},
-        )
+        import dask
+
+        spawn_env = dict(dask.config.get("distributed.nanny.pre-spawn-environ", {}) or {})
+        spawn_env.update(WORKER_MALLOC_ENV)
+        with dask.config.set({"distributed.nanny.pre-spawn-environ": spawn_env}):
+            cluster = LocalCluster(
+                n_workers=max(1, workers),
+                threads_per_worker=1,
+                processes=True,
+                dashboard_address=None,
+                env={"GDAL_CACHEMAX": str(GDAL_CACHE_MB), "GDAL_NUM_THREADS": "1"},
+            )
         client = Client(cluster)
     else:
         client = Client(scheduler)
     try:
-        blob = pickle.dumps(plan.config)
-        key = hashlib.sha256(blob + repr([a.id for a in plan.algorithms]).encode()).hexdigest()
-        ids = [a.id for a in plan.algorithms]
+        # The plan as checked here (not rebuilt on every worker), sent to each worker once.
+        blob = pickle.dumps(plan)
+        key = hashlib.sha256(blob).hexdigest()
+        [blob_on_workers] = client.scatter([blob], broadcast=True, hash=False)
         it = iter(windows)
         cap = max(4, 2 * sum(client.nthreads().values()))
         futures = as_completed()
         n = 0
         for w in it:
-            futures.add(client.submit(_dask_window, blob, key, ids, tuple(w.flatten()), pure=False))
+            futures.add(
+                client.submit(_dask_window, blob_on_workers, key, tuple(w.flatten()), pure=False)
+            )
             n += 1
             if n >= cap:
                 break
@@ -360,7 +378,9 @@ def _dask(plan, windows, scheduler: str, workers: int) -> Iterator[WindowResult]
             nxt = next(it, None)
             if nxt is not None:
                 futures.add(
-                    client.submit(_dask_window, blob, key, ids, tuple(nxt.flatten()), pure=False)
+                    client.submit(
+                        _dask_window, blob_on_workers, key, tuple(nxt.flatten()), pure=False
+                    )
                 )
             yield result
     finally:
