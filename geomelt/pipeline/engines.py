@@ -2,11 +2,11 @@
 
 Every engine runs the same :class:`WindowComputer` on the same windows, so the
 pixels do not depend on the engine, the number of workers or the window order.
-Results come back to the calling thread, which alone writes the files; one
-window per worker is computed at a time and at most one finished window waits
-for the writer, and inside a window each array is dropped as soon as no later
-algorithm, output, total or second pass reads it, so memory stays bounded
-whatever the grid size.
+Results come back to the calling thread in window order (so totals add up the
+same way on every run), and that thread alone writes the files. About one
+window per worker is in flight, and inside a window each array is dropped as
+soon as no later algorithm, output, total or second pass reads it, so memory
+stays bounded whatever the grid size.
 """
 
 from __future__ import annotations
@@ -21,7 +21,7 @@ import pickle
 import threading
 from collections import deque
 from collections.abc import Iterator
-from concurrent.futures import FIRST_COMPLETED, ThreadPoolExecutor, wait
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -276,29 +276,25 @@ def _serial(computer: WindowComputer, windows) -> Iterator[WindowResult]:
 
 
 def _threads(computer: WindowComputer, windows, workers: int) -> Iterator[WindowResult]:
-    """One window per worker thread at a time; a finished window is handed over (and the
-    next one started) as soon as the caller asks, so at most ``workers`` windows are
-    computed and one is written at any moment."""
+    """Windows on a thread pool, handed over in window order (so running totals add up in
+    the same order on every run). ``workers + 1`` windows are in flight: one per worker
+    and one queued, so a worker rarely waits; a window that finished before an earlier
+    one waits for it."""
     if workers <= 1:
         yield from _serial(computer, windows)
         return
-    pending: set = set()
+    pending: deque = deque()
     with ThreadPoolExecutor(max_workers=workers, thread_name_prefix="geomelt") as pool:
         it = iter(windows)
         for w in it:
-            pending.add(pool.submit(computer, w))
-            if len(pending) >= workers:
+            pending.append(pool.submit(computer, w))
+            if len(pending) > workers:
                 break
-        finished: deque = deque()
-        while pending or finished:
-            if not finished:
-                done, pending = wait(pending, return_when=FIRST_COMPLETED)
-                finished.extend(done)
-                del done
-            result = finished.popleft().result()
+        while pending:
+            result = pending.popleft().result()
             nxt = next(it, None)
             if nxt is not None:
-                pending.add(pool.submit(computer, nxt))
+                pending.append(pool.submit(computer, nxt))
             yield result
             del result
 
@@ -332,7 +328,7 @@ def _dask_window(plan_blob: bytes, key: str, window_tuple) -> WindowResult:
 
 def _dask(plan, windows, scheduler: str, workers: int) -> Iterator[WindowResult]:
     try:
-        from dask.distributed import Client, LocalCluster, as_completed
+        from dask.distributed import Client, LocalCluster
     except ImportError:  # pragma: no cover - optional dependency
         msg = (
             "the dask engine needs dask.distributed: pip install 'geomelt[dask]' (or "
@@ -363,26 +359,27 @@ def _dask(plan, windows, scheduler: str, workers: int) -> Iterator[WindowResult]
         [blob_on_workers] = client.scatter([blob], broadcast=True, hash=False)
         it = iter(windows)
         cap = max(4, 2 * sum(client.nthreads().values()))
-        futures = as_completed()
-        n = 0
-        for w in it:
-            futures.add(
+        pending: deque = deque()
+
+        def submit(w) -> None:
+            pending.append(
                 client.submit(_dask_window, blob_on_workers, key, tuple(w.flatten()), pure=False)
             )
-            n += 1
-            if n >= cap:
+
+        for w in it:
+            submit(w)
+            if len(pending) >= cap:
                 break
-        for fut in futures:
+        # Handed over in window order, as the thread engine does.
+        while pending:
+            fut = pending.popleft()
             result = fut.result()
             fut.release()
             nxt = next(it, None)
             if nxt is not None:
-                futures.add(
-                    client.submit(
-                        _dask_window, blob_on_workers, key, tuple(nxt.flatten()), pure=False
-                    )
-                )
+                submit(nxt)
             yield result
+            del result
     finally:
         client.close()
         if cluster is not None:
