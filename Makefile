@@ -30,6 +30,9 @@ format: $(STAMP)
 	$(BIN)/ruff check --fix geomelt processing_scripts tests
 	$(BIN)/ruff format geomelt processing_scripts tests
 
+bench: $(STAMP)
+	$(BIN)/python processing_scripts/benchmark.py --sizes 4096 8192 --repeats 3 1 --out benchmark_output
+
 sample-layers: $(STAMP)
 	$(BIN)/python processing_scripts/make_sample_layers.py --out sample_layers
 

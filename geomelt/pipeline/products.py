@@ -7,6 +7,7 @@ the GeoTIFFs keep full resolution.
 
 from __future__ import annotations
 
+import gc
 import logging
 import os
 from pathlib import Path
@@ -38,6 +39,9 @@ __all__ = [
 
 log = logging.getLogger(__name__)
 
+QUICKLOOK_MAX_CELLS = 1000
+"""Quick-looks are drawn from rasters reduced to at most this many cells a side (the figure
+is 1000 pixels wide, so finer reads add memory, not detail)."""
 POLYGON_MAX_CELLS = 1500
 """Setting polygons are traced on the setting raster reduced to at most this many cells a side."""
 POLYGON_MIN_CELLS = 8
@@ -301,7 +305,7 @@ def write_quicklooks(
         tif = out_dir / f"{name}.tif"
         if not tif.exists():
             continue
-        arr, tr, _ = read_reduced(tif, categorical=True)
+        arr, tr, _ = read_reduced(tif, QUICKLOOK_MAX_CELLS, categorical=True)
         with rasterio.open(tif) as ds:
             crs = ds.crs
         scheme = SCHEMES[name]
@@ -317,11 +321,13 @@ def write_quicklooks(
             footnote=footnote,
         )
         pairs.append((qdir / f"{name}.png", out_dir / "quicklook" / f"{name}.png"))
+        del arr
+        gc.collect()  # matplotlib figures hold reference cycles; free each before the next
     for name, title, unit, cmap in QUICKLOOK_CONTINUOUS:
         tif = out_dir / f"{name}.tif"
         if not tif.exists():
             continue
-        arr, tr, _ = read_reduced(tif)
+        arr, tr, _ = read_reduced(tif, QUICKLOOK_MAX_CELLS)
         with rasterio.open(tif) as ds:
             crs = ds.crs
         continuous_map_png(
@@ -337,10 +343,12 @@ def write_quicklooks(
             footnote=footnote,
         )
         pairs.append((qdir / f"{name}.png", out_dir / "quicklook" / f"{name}.png"))
+        del arr
+        gc.collect()  # matplotlib figures hold reference cycles; free each before the next
     if prospects is not None and (out_dir / "setting.tif").exists():
         from geomelt.io.prospects import standard_screens
 
-        arr, tr, _ = read_reduced(out_dir / "setting.tif", categorical=True)
+        arr, tr, _ = read_reduced(out_dir / "setting.tif", QUICKLOOK_MAX_CELLS, categorical=True)
         with rasterio.open(out_dir / "setting.tif") as ds:
             crs = ds.crs
         titles = {s.key: s.title for s in standard_screens()}
