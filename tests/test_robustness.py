@@ -351,7 +351,11 @@ def rasters(draw):
     return np.array(values, dtype="float32").reshape(rows, cols)
 
 
-@settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(
+    max_examples=25,
+    deadline=None,
+    suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much],
+)
 @given(
     array=rasters(),
     description=TEXT,
