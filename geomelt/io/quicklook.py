@@ -467,6 +467,25 @@ class _Map:
 # --------------------------------------------------------------------------- public
 
 
+def _finish(m: _Map, path, title, legend, boundaries, hotspots, footnote) -> QuicklookInfo:
+    """Overlays, scale bar, north arrow and footnote; save the figure and describe it."""
+    m.overlays(boundaries, hotspots)
+    m.extra_legend()
+    km = m.scale_bar()
+    north, angle = m.north_arrow()
+    m.footnote(footnote)
+    out, size = m.save(path, title, footnote)
+    return QuicklookInfo(
+        path=out,
+        size_px=size,
+        legend_labels=tuple(t.get_text() for t in legend.get_texts()) if legend else (),
+        scale_bar_km=km,
+        north=north,
+        north_angle_deg=angle,
+        decimation=m.decimation,
+    )
+
+
 def class_map_png(
     path,
     array: np.ndarray,
@@ -544,21 +563,7 @@ def class_map_png(
         title=scheme.title,
         title_fontsize=9,
     )
-    m.overlays(boundaries, hotspots)
-    m.extra_legend()
-    km = m.scale_bar()
-    north, angle = m.north_arrow()
-    m.footnote(footnote)
-    out, size = m.save(path, title, footnote)
-    return QuicklookInfo(
-        path=out,
-        size_px=size,
-        legend_labels=tuple(t.get_text() for t in legend.get_texts()),
-        scale_bar_km=km,
-        north=north,
-        north_angle_deg=angle,
-        decimation=m.decimation,
-    )
+    return _finish(m, path, title, legend, boundaries, hotspots, footnote)
 
 
 def continuous_map_png(
@@ -607,21 +612,7 @@ def continuous_map_png(
     bar = m.fig.colorbar(m.ax.images[0], cax=cax)
     bar.set_label(unit, fontsize=9)
     bar.ax.tick_params(labelsize=7)
-    m.overlays(boundaries, hotspots)
-    m.extra_legend()
-    km = m.scale_bar()
-    north, angle = m.north_arrow()
-    m.footnote(footnote)
-    out, size = m.save(path, title, footnote)
-    return QuicklookInfo(
-        path=out,
-        size_px=size,
-        legend_labels=(),
-        scale_bar_km=km,
-        north=north,
-        north_angle_deg=angle,
-        decimation=m.decimation,
-    )
+    return _finish(m, path, title, None, boundaries, hotspots, footnote)
 
 
 def prospects_map_png(
@@ -708,18 +699,4 @@ def prospects_map_png(
         title="Prospects by screen (count)",
         title_fontsize=9,
     )
-    m.overlays(boundaries, hotspots)
-    m.extra_legend()
-    km = m.scale_bar()
-    north, angle = m.north_arrow()
-    m.footnote(footnote)
-    out, size = m.save(path, "Ranked prospects", footnote)
-    return QuicklookInfo(
-        path=out,
-        size_px=size,
-        legend_labels=tuple(t.get_text() for t in legend.get_texts()),
-        scale_bar_km=km,
-        north=north,
-        north_angle_deg=angle,
-        decimation=m.decimation,
-    )
+    return _finish(m, path, "Ranked prospects", legend, boundaries, hotspots, footnote)
