@@ -380,12 +380,10 @@ def child_io_floor(
     import numpy as np
     import rasterio
 
-    import geomelt
     from geomelt.algorithms import Algorithm
     from geomelt.classes import SCHEMES
     from geomelt.io.config import load_config
-    from geomelt.io.geotiff import GeoTiffWriter
-    from geomelt.pipeline import engines
+    from geomelt.pipeline import engines, runner
     from geomelt.pipeline.runner import _sha256, plan_run
 
     t_imports = time.perf_counter()
@@ -483,26 +481,9 @@ def child_io_floor(
     files = []
     with rasterio.Env(GDAL_CACHEMAX=engines.GDAL_CACHE_MB):  # as execute_run
         for alg, o in written:
-            writers[o.name] = GeoTiffWriter(
-                out / f"{o.name}.tif",
-                staging,
-                plan.grid,
-                dtype=o.dtype,
-                nodata=o.nodata,
-                description=o.name,
-                unit=o.unit,
-                categorical=o.categorical,
-                scheme=SCHEMES[o.scheme] if o.scheme else None,
-                block_size=plan.block_size,
-                band_tags={"long_name": o.long_name, "description": o.description, "units": o.unit},
-                dataset_tags={
-                    "producer": f"geomelt {geomelt.__version__}",
-                    "algorithm": f"{alg.id} {alg.version}",
-                    "parameters": plan.parameters[alg.id].as_dict(),
-                    "inputs": input_meta,
-                    "references": list(alg.references),
-                    "caution": geomelt.CAUTION,
-                },
+            # the run's own writer: same format options, styles and provenance tags
+            writers[o.name] = runner.open_output_writer(
+                plan, alg, o, out / f"{o.name}.tif", staging, input_meta
             )
         t_open = time.perf_counter()
         windows = list(plan.grid.windows(plan.block_size))

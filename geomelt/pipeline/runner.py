@@ -67,6 +67,7 @@ __all__ = [
     "RunResult",
     "check_output_location",
     "execute_run",
+    "open_output_writer",
     "plan_run",
     "resolve_chain",
 ]
@@ -543,31 +544,8 @@ def execute_run(
                         "cells outside it are nodata"
                     )
             for alg, out in written:
-                scheme = SCHEMES[out.scheme] if out.scheme else None
-                writers[out.name] = GeoTiffWriter(
-                    ready / f"{out.name}.tif",
-                    staging,
-                    grid,
-                    dtype=out.dtype,
-                    nodata=out.nodata,
-                    description=out.name,
-                    unit=out.unit,
-                    categorical=out.categorical,
-                    scheme=scheme,
-                    block_size=plan.block_size,
-                    band_tags={
-                        "long_name": out.long_name,
-                        "description": out.description,
-                        "units": out.unit,
-                    },
-                    dataset_tags={
-                        "producer": f"geomelt {geomelt.__version__}",
-                        "algorithm": f"{alg.id} {alg.version}",
-                        "parameters": plan.parameters[alg.id].as_dict(),
-                        "inputs": input_meta,
-                        "references": list(alg.references),
-                        "caution": geomelt.CAUTION,
-                    },
+                writers[out.name] = open_output_writer(
+                    plan, alg, out, ready / f"{out.name}.tif", staging, input_meta
                 )
             for reader in readers.values():
                 reader.close()
@@ -763,6 +741,33 @@ def _quicklook_title(png: Path) -> str:
         return png.stem.replace("_", " ").capitalize()
     with rasterio.open(tif) as ds:
         return ds.tags(1).get("long_name") or png.stem
+
+
+def open_output_writer(
+    plan: RunPlan, alg: Algorithm, out: OutputLayer, path: Path, staging: Path, input_meta
+) -> GeoTiffWriter:
+    """The GeoTIFF writer of one output, with its format, style and provenance tags."""
+    return GeoTiffWriter(
+        path,
+        staging,
+        plan.grid,
+        dtype=out.dtype,
+        nodata=out.nodata,
+        description=out.name,
+        unit=out.unit,
+        categorical=out.categorical,
+        scheme=SCHEMES[out.scheme] if out.scheme else None,
+        block_size=plan.block_size,
+        band_tags={"long_name": out.long_name, "description": out.description, "units": out.unit},
+        dataset_tags={
+            "producer": f"geomelt {geomelt.__version__}",
+            "algorithm": f"{alg.id} {alg.version}",
+            "parameters": plan.parameters[alg.id].as_dict(),
+            "inputs": input_meta,
+            "references": list(alg.references),
+            "caution": geomelt.CAUTION,
+        },
+    )
 
 
 def _progress_bar(total: int, enabled: bool):
