@@ -17,6 +17,7 @@ import click
 
 import geomelt
 from geomelt.cli.options import (
+    algorithm_option,
     config_with_overrides,
     handle_errors,
     input_option,
@@ -127,14 +128,7 @@ def _covered(note: str) -> bool:
 @click.option("--overwrite", is_flag=True, help="Check the folder as 'run --overwrite' would.")
 @input_option
 @param_option
-@click.option(
-    "-a",
-    "--algorithm",
-    "algorithm_ids",
-    multiple=True,
-    metavar="ID",
-    help="Check only this algorithm and those it depends on (repeatable; default: all).",
-)
+@algorithm_option("Check")
 @click.option("--block-size", type=int, default=None, help="Window size in cells (multiple of 16).")
 @verbosity
 @handle_errors

@@ -178,3 +178,15 @@ param_option = click.option(
     "Values are TOML: numbers, [lists], text.",
 )
 """Shared ``-p/--param NAME=VALUE`` option."""
+
+
+def algorithm_option(verb: str):
+    """``-a/--algorithm ID`` (repeatable): ``verb`` says what happens to it ("Run", "Check")."""
+    return click.option(
+        "-a",
+        "--algorithm",
+        "algorithm_ids",
+        multiple=True,
+        metavar="ID",
+        help=f"{verb} only this algorithm and those it depends on (repeatable; default: all).",
+    )

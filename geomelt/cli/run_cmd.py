@@ -10,6 +10,7 @@ import click
 
 import geomelt
 from geomelt.cli.options import (
+    algorithm_option,
     handle_errors,
     input_option,
     param_option,
@@ -79,14 +80,7 @@ def print_summary(result: RunResult) -> None:
 @click.option("--overwrite", is_flag=True, help="Replace geomelt outputs in an existing folder.")
 @input_option
 @param_option
-@click.option(
-    "-a",
-    "--algorithm",
-    "algorithm_ids",
-    multiple=True,
-    metavar="ID",
-    help="Run only this algorithm and those it depends on (repeatable; default: all).",
-)
+@algorithm_option("Run")
 @click.option("--block-size", type=int, default=None, help="Window size in cells (multiple of 16).")
 @click.option(
     "--engine",
