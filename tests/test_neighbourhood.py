@@ -177,3 +177,12 @@ def test_conformal_projection_cell_areas_use_the_areal_scale():
 def test_equal_area_projection_cells_are_their_map_area():
     grid = RasterGrid(LAEA, Affine(10_000.0, 0, 0.0, 0, -10_000.0, 0.0), 5, 4)
     np.testing.assert_array_equal(grid.cell_area_km2(), np.full((4, 5), 100.0))
+
+
+def test_lonlat_at_equals_the_window_centres():
+    grid = RasterGrid(LAEA, Affine(10_000.0, 0, -50_000.0, 0, -10_000.0, 70_000.0), 9, 7)
+    lon, lat = grid.lonlat()
+    rows, cols = np.array([0, 3, 6]), np.array([8, 2, 0])
+    got_lon, got_lat = grid.lonlat_at(rows, cols)
+    np.testing.assert_allclose(got_lon, lon[rows, cols], rtol=0, atol=1e-12)
+    np.testing.assert_allclose(got_lat, lat[rows, cols], rtol=0, atol=1e-12)

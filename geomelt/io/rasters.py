@@ -124,6 +124,19 @@ class RasterGrid:
         lon, lat = _to_wgs84(wkt).transform(x, y)
         return np.asarray(lon), np.asarray(lat)
 
+    def lonlat_at(self, rows, cols) -> tuple[np.ndarray, np.ndarray]:
+        """Cell-centre longitude and latitude (degrees, WGS84) of cells given by row and
+        column indices (arrays of the same shape)."""
+        r = np.asarray(rows, dtype=np.float64) + 0.5
+        c = np.asarray(cols, dtype=np.float64) + 0.5
+        t = self.transform
+        x = t.c + t.a * c + t.b * r
+        y = t.f + t.d * c + t.e * r
+        if self.crs.to_epsg() == 4326:
+            return x, y
+        lon, lat = _to_wgs84(self.crs.to_wkt()).transform(x, y)
+        return np.asarray(lon), np.asarray(lat)
+
     def cell_area_km2(self, window: Window | None = None) -> np.ndarray:
         """True (ellipsoidal) area of each cell of a window, km² (2-D float64 array).
 

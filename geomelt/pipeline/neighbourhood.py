@@ -164,17 +164,6 @@ class MeltProximityCollector:
                 np.ix_(self.node_rows[ir] - r0, self.node_cols[ic] - c0)
             ]
 
-    def _lonlat(self, rows: np.ndarray, cols: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        t = self.grid.transform
-        x = t.c + t.a * (cols + 0.5) + t.b * (rows + 0.5)
-        y = t.f + t.d * (cols + 0.5) + t.e * (rows + 0.5)
-        if self.grid.crs.to_epsg() == 4326:
-            return x, y
-        from geomelt.io.rasters import _to_wgs84
-
-        lon, lat = _to_wgs84(self.grid.crs.to_wkt()).transform(x, y)
-        return np.asarray(lon), np.asarray(lat)
-
     def finish(self, workers: int = 1) -> MeltProximityField:
         """Measure the lattice distances; call once, after every window was added."""
         shape = self.node_melt.shape
@@ -185,12 +174,12 @@ class MeltProximityCollector:
         cols = np.concatenate(self._edge_cols)
         self._edge_rows.clear()
         self._edge_cols.clear()
-        tree = cKDTree(_unit_vectors(*self._lonlat(rows, cols)))
+        tree = cKDTree(_unit_vectors(*self.grid.lonlat_at(rows, cols)))
         nr, nc = np.meshgrid(self.node_rows, self.node_cols, indexing="ij")
         todo = ~self.node_melt.ravel()
         dist = np.zeros(self.node_melt.size, dtype=np.float64)
         if todo.any():
-            lon, lat = self._lonlat(nr.ravel()[todo], nc.ravel()[todo])
+            lon, lat = self.grid.lonlat_at(nr.ravel()[todo], nc.ravel()[todo])
             chord, _ = tree.query(_unit_vectors(lon, lat), k=1, workers=max(1, workers))
             dist[todo] = 2.0 * EARTH_MEAN_RADIUS_KM * np.arcsin(np.minimum(chord / 2.0, 1.0))
         return MeltProximityField(
