@@ -85,7 +85,9 @@ __all__ = [
     "SIDE_TYPES",
     "BoundaryField",
     "BoundarySet",
+    "aux_sphere_components",
     "boundary_fields",
+    "lambert_distance_km",
     "suggest_tile_km",
 ]
 
@@ -235,7 +237,7 @@ BOUNDARY_FIELDS: dict[str, BoundaryField] = _field_table()
 # ---------------------------------------------------------------------------
 
 
-def _aux_components(lon_deg: np.ndarray, lat_deg: np.ndarray) -> np.ndarray:
+def aux_sphere_components(lon_deg: np.ndarray, lat_deg: np.ndarray) -> np.ndarray:
     """Unit vectors on the auxiliary sphere of reduced latitude, as rows x, y, z (3, n).
 
     The reduced latitude ``beta`` satisfies ``tan(beta) = (1 - f) tan(phi)``
@@ -256,8 +258,8 @@ def _aux_components(lon_deg: np.ndarray, lat_deg: np.ndarray) -> np.ndarray:
 
 
 def _aux_unit_vectors(lon_deg: np.ndarray, lat_deg: np.ndarray) -> np.ndarray:
-    """Unit vectors (n, 3) on the auxiliary sphere (see :func:`_aux_components`)."""
-    return np.ascontiguousarray(_aux_components(lon_deg, lat_deg).T)
+    """Unit vectors (n, 3) on the auxiliary sphere (see :func:`aux_sphere_components`)."""
+    return np.ascontiguousarray(aux_sphere_components(lon_deg, lat_deg).T)
 
 
 def _dot(a: np.ndarray, b: np.ndarray) -> np.ndarray:
@@ -374,7 +376,7 @@ def _left_of_line(pc: np.ndarray, index: _TypeIndex, node: np.ndarray) -> np.nda
     return np.where(inside, s, end_dot)
 
 
-def _lambert_distance_km(half_chord2: np.ndarray, z1: np.ndarray, z2: np.ndarray) -> np.ndarray:
+def lambert_distance_km(half_chord2: np.ndarray, z1: np.ndarray, z2: np.ndarray) -> np.ndarray:
     """Ellipsoidal (WGS84) distance, km, between two points of the auxiliary sphere.
 
     Lambert's (1942) formula: with ``sigma`` the central angle on the sphere
@@ -794,7 +796,7 @@ def _chord_distance_km(
 ) -> np.ndarray:
     """WGS84 distance (km) from cells (x0, y0, z0 on the auxiliary sphere) to the
     foot of the perpendicular on the chords ``nid`` of the kernel table ``tt``
-    (11, m); see :func:`_arc_distance_rad` and :func:`_lambert_distance_km`."""
+    (11, m); see :func:`_arc_distance_rad` and :func:`lambert_distance_km`."""
     nz, az, ez = tt[2][nid], tt[5][nid], tt[8][nid]
     s = x0 * tt[0][nid]
     s += y0 * tt[1][nid]
@@ -817,7 +819,7 @@ def _chord_distance_km(
     half_chord2 = np.where(inside, 0.5 * s * s / (1.0 + r), 0.5 - 0.5 * np.maximum(x, pb))
     z_end = np.where(x >= pb, az, c * az + sn * ez)
     z_foot = np.where(inside, (z0 - s * nz) / np.maximum(r, 1e-300), z_end)
-    return _lambert_distance_km(half_chord2, z0, z_foot)
+    return lambert_distance_km(half_chord2, z0, z_foot)
 
 
 def _nearest_nodes(
@@ -1340,7 +1342,7 @@ def boundary_fields(
         cells = np.flatnonzero(np.isfinite(clon) & np.isfinite(clat) & (np.abs(clat) <= 90.0))
         if cells.size == 0:
             continue
-        pc = _aux_components(clon[cells], clat[cells])
+        pc = aux_sphere_components(clon[cells], clat[cells])
         tiles, cell_tile = np.unique(_tile_ids(pc, n_face), return_inverse=True)
         cell_tile = cell_tile.reshape(-1)
         centres, radii = _tile_caps(tiles, n_face)

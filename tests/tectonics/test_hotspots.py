@@ -25,7 +25,11 @@ def test_profile_follows_geodesic_distance(hlon, hlat, az):
     lons, lats, _ = GEOD.fwd(np.full(4, hlon), np.full(4, hlat), np.full(4, az), dists_km * 1000)
     got = hotspot_excess_temperature_k(np.asarray(lons), np.asarray(lats), one(hlon, hlat))
     expected = 200.0 * np.exp(-((dists_km / 300.0) ** 2))  # the documented Gaussian profile
-    np.testing.assert_allclose(got, expected, rtol=1e-6, atol=1e-9)
+    # Distances come from Lambert's formula, within 2e-6 of Karney's geodesic; the
+    # Gaussian turns a relative distance error e into 2 (r/R)^2 e, i.e. 8 e at r = 2R.
+    np.testing.assert_allclose(got, expected, rtol=8 * 2e-6, atol=1e-9)
+    implied_km = 300.0 * np.sqrt(-np.log(got[1:] / 200.0))
+    np.testing.assert_allclose(implied_km, dists_km[1:], rtol=2e-6)
 
 
 def test_overlapping_plumes_take_the_larger_excess():
