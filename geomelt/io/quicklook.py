@@ -14,6 +14,7 @@ name and moved into place.
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
@@ -95,6 +96,16 @@ def _pyproj(crs):
 def _crs_name(pc) -> str:
     if pc is None:
         return "no CRS"
+    return _crs_name_of_wkt(pc.to_wkt())
+
+
+@functools.lru_cache(maxsize=8)
+def _crs_name_of_wkt(wkt: str) -> str:
+    # Identifying a CRS that has no EPSG code searches the whole database (about 0.1 s):
+    # done once per run, not once per map.
+    from pyproj import CRS
+
+    pc = CRS.from_wkt(wkt)
     epsg = pc.to_epsg()
     return f"EPSG:{epsg}" if epsg else pc.name
 

@@ -22,7 +22,6 @@ import geomelt
 from geomelt.classes import MAGMA_TYPE, MELTING_MECHANISM, SCHEMES, SETTING
 from geomelt.io.geopackage import GPKG_DATASET_OPTIONS
 from geomelt.io.polygons import class_polygons, zonal_summary
-from geomelt.io.quicklook import class_map_png, continuous_map_png, prospects_map_png
 from geomelt.io.rasters import read_reduced
 from geomelt.io.styles import LayerStyle, style_class_layer, write_layer_styles
 
@@ -296,6 +295,10 @@ def write_quicklooks(
     the caller to move into ``out_dir/quicklook``.
     """
     import rasterio
+
+    # matplotlib is imported here, not with the module: a run holds it only after its
+    # windows are done, when their buffers have been freed (about 60 MiB of the peak).
+    from geomelt.io.quicklook import class_map_png, continuous_map_png, prospects_map_png
 
     qdir = staging / "quicklook"
     qdir.mkdir(exist_ok=True)
