@@ -32,7 +32,7 @@ from rasterio.windows import Window
 
 from geomelt.errors import GeomeltError
 from geomelt.io.rasters import AlignedRaster
-from geomelt.layers import INPUT_LAYERS
+from geomelt.layers import GRID_LAYERS, INPUT_LAYERS
 
 __all__ = [
     "ENGINES",
@@ -148,9 +148,9 @@ OUTSIDE_CALIBRATION = "outside_calibration:"
 """Prefix of the summaries counting, per output, valid cells a method left without a value."""
 
 
-def _summaries(plan, arrays: dict, stage) -> dict[str, np.ndarray]:
+def _summaries(plan, arrays: dict, stage, reducers=None) -> dict[str, np.ndarray]:
     out: dict[str, np.ndarray] = {}
-    for reducer in plan.reducers:
+    for reducer in plan.reducers if reducers is None else reducers:
         if all(n in arrays for n in reducer.inputs):
             out.update(reducer(arrays))
     ids = {a.id for a in stage}
@@ -245,6 +245,15 @@ class SecondPassComputer:
         second = {a.id for a in plan.stages[1]}
         self._written = [o for a, o in plan.outputs if o.written and a.id in second]
         self._schedule = _drop_schedule(plan.stages[1], _kept(plan, plan.stages[1], self._written))
+        # Only the grid layers the second-pass algorithms read: the cell coordinates cost a
+        # map-projection inverse per cell, the first pass's totals already have the areas.
+        self._grid_layers = {
+            n for a in plan.stages[1] for n in (*a.inputs, *a.optional_inputs)
+        } & set(plan.grid_layers)
+        # Totals whose inputs all exist in the first pass were added up there already.
+        first = {o.name for a, o in plan.outputs if a.id not in second}
+        first |= set(plan.raster_inputs) | set(GRID_LAYERS)
+        self._reducers = [r for r in plan.reducers if not set(r.inputs) <= first]
 
     def __call__(self, window: Window) -> WindowResult:
         from geomelt.pipeline.neighbourhood import melt_mask
@@ -258,12 +267,12 @@ class SecondPassComputer:
             arrays["distance_to_melt_km"] = self.fields["distance_to_melt_km"].distance_km(
                 window, melting
             )
-        arrays.update(_grid_layers(plan, window, plan.grid_layers - set(arrays)))
+        arrays.update(_grid_layers(plan, window, self._grid_layers - set(arrays)))
         _run_algorithms(plan.stages[1], arrays, plan.parameters, self._schedule)
         return WindowResult(
             window,
             {o.name: arrays[o.name] for o in self._written},
-            summaries=_summaries(plan, arrays, plan.stages[1]),
+            summaries=_summaries(plan, arrays, plan.stages[1], self._reducers),
         )
 
     def close(self) -> None:
