@@ -19,8 +19,11 @@ For every size N the script
    (a) ``io_floor`` - the same inputs read on the reference grid through geomelt's own
        window computer and engine (same readers, block size and threads) and the same
        output GeoTIFFs written with :class:`geomelt.io.geotiff.GeoTiffWriter` (dtype,
-       profile, overviews, tags, style sidecars), but filled with a cheap function of
-       the inputs instead of the physics;
+       profile, tags, style sidecars) through the run's writer threads
+       (:class:`geomelt.pipeline.writing.OutputSink`) and finished as the run finishes
+       them (:func:`geomelt.pipeline.runner.finish_outputs`: Cloud-Optimized GeoTIFFs
+       with overviews), but filled with the pixels of an earlier run (or a cheap
+       function of the inputs) instead of the physics;
    (b) ``geomelt`` - ``geomelt run CONFIG -o DIR --overwrite`` (default engine);
    (c) ``per_cell`` - the same physics for a seeded random sample of cells, one cell at a
        time with scalar calls (root finding for the lithosphere base, the reference
@@ -385,6 +388,7 @@ def child_io_floor(
     from geomelt.io.config import load_config
     from geomelt.pipeline import engines, runner
     from geomelt.pipeline.runner import _sha256, plan_run
+    from geomelt.pipeline.writing import OutputSink, write_threads
 
     t_imports = time.perf_counter()
     cfg = load_config(config_path)
@@ -490,18 +494,20 @@ def child_io_floor(
         # What iterate_windows(plan, windows, "threads", workers) does, with the computer
         # above: the same thread pool and bound on windows in flight.
         computer = FloorComputer(floor_plan)
+        # The run's writing: the same writer threads (OutputSink), without the statistics.
+        sink = OutputSink(writers, write_threads(workers))
         try:
             n_workers = int(workers or 0) or engines.default_workers()
             for result in engines._threads(computer, windows, n_workers):
-                for _, o in written:
-                    writers[o.name].write(result.arrays[o.name], result.window)
+                sink.put(result.window, result.arrays)
+            sink.close()
         finally:
+            sink.abandon()
             computer.close()
             for ds in opened:
                 ds.close()
         t_windows = time.perf_counter()
-        for w in writers.values():
-            files.append(w.finish())
+        files.extend(runner.finish_outputs(writers, workers))  # as execute_run
     shutil.rmtree(staging, ignore_errors=True)
     t_end = time.perf_counter()
     result = {
@@ -517,7 +523,7 @@ def child_io_floor(
             "plan": t_plan - t_imports,
             "checksums_and_open": t_open - t_plan,
             "windows": t_windows - t_open,
-            "finish_overviews": t_end - t_windows,
+            "finish_outputs": t_end - t_windows,
         },
         "work_s": t_end - t_imports,
     }

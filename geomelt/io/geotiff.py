@@ -1,8 +1,15 @@
 """Write geomelt's single-band GeoTIFF outputs.
 
-Each output is written window by window into a staging file, then finished
-(internal overviews, band description, unit, provenance tags) and moved into
-place with an atomic rename, so a final name never holds a partial file.
+Each output is written window by window into a tiled working file (band
+description, unit, provenance tags, colour table), then finished as a
+Cloud-Optimized GeoTIFF (GDAL's COG driver: overviews, tiles in reading
+order) and moved into place with an atomic rename, so a final name never
+holds a partial file.
+
+Finishing copies the file once more, but GDAL does it without holding
+Python's global interpreter lock, so several files finish at the same time
+and alongside other work (rasterio's ``build_overviews`` on the open file held
+the lock for as long as it ran).
 """
 
 from __future__ import annotations
@@ -15,12 +22,13 @@ from typing import Any
 
 import numpy as np
 import rasterio
+import rasterio.shutil
 from rasterio.enums import Resampling
 from rasterio.windows import Window
 
 from geomelt.io.rasters import RasterGrid
 
-__all__ = ["CODEC_OPTIONS", "GEOTIFF_PROFILE", "GeoTiffWriter", "overview_factors"]
+__all__ = ["COG_OPTIONS", "GEOTIFF_PROFILE", "GeoTiffWriter", "WORKING_OPTIONS"]
 
 GEOTIFF_PROFILE: dict[str, Any] = {
     "driver": "GTiff",
@@ -30,26 +38,25 @@ GEOTIFF_PROFILE: dict[str, Any] = {
 }
 """Creation options shared by every output."""
 
-CODEC_OPTIONS: dict[str, dict[str, Any]] = {
+COG_OPTIONS: dict[str, dict[str, Any]] = {
     # Measured on 4096 x 4096 float32 fields written by 512-cell windows on this project's
     # 2-core machines: ZSTD level 1 + floating-point predictor wrote in 0.18-0.20 s against
     # 0.72-0.79 s for DEFLATE level 6, for files within 1 % of the size (56.4 vs 56.2 MB).
-    "f": {"compress": "zstd", "zstd_level": 1, "predictor": 3},
+    "f": {"compress": "ZSTD", "level": 1, "predictor": "FLOATING_POINT"},
     # Class rasters: DEFLATE without predictor was smallest and any TIFF reader opens it.
-    "u": {"compress": "deflate", "zlevel": 6, "predictor": 1},
-    "i": {"compress": "deflate", "zlevel": 6, "predictor": 2},
+    "u": {"compress": "DEFLATE", "level": 6, "predictor": "NO"},
+    "i": {"compress": "DEFLATE", "level": 6, "predictor": "STANDARD"},
 }
-"""Compression per dtype kind (float, unsigned and signed integer)."""
+"""Compression of the finished files per dtype kind (float, unsigned and signed integer),
+as options of GDAL's COG driver."""
 
+WORKING_OPTIONS: dict[str, Any] = {"compress": "zstd", "zstd_level": 1, "predictor": 1}
+"""Compression of the working files (temporary): the cheapest to write and to read back.
+Measured on 4096 x 4096 float32 fields of a run: 0.08 s to write against 0.18 s with the
+floating-point predictor, for 44 instead of 27 MB; the copy into the COG took the same."""
 
-def overview_factors(width: int, height: int, min_size: int = 256) -> list[int]:
-    """Overview decimation factors (2, 4, 8, ...) until the image is below ``min_size``."""
-    factors = []
-    f = 2
-    while max(width, height) / f >= min_size / 2 and f <= 4096:
-        factors.append(f)
-        f *= 2
-    return factors
+WORKING_SUFFIX = ".part.tif"
+"""Ending of the working file an output is written into before it is finished."""
 
 
 def _tag_value(value: Any) -> str:
@@ -104,6 +111,7 @@ class GeoTiffWriter:
     ):
         self.final_path = Path(final_path)
         self.staging_path = Path(staging_dir) / self.final_path.name
+        self.working_path = Path(staging_dir) / (self.final_path.stem + WORKING_SUFFIX)
         self.grid = grid
         self.dtype = np.dtype(dtype)
         self.nodata = nodata
@@ -114,6 +122,7 @@ class GeoTiffWriter:
         # Tiles of 256 cells unless the processing windows are not a multiple of that;
         # windows must cover whole tiles or compressed tiles get rewritten.
         block = 256 if block_size % 256 == 0 else max(16, block_size // 16 * 16)
+        self.tile_size = block
         profile = dict(
             GEOTIFF_PROFILE,
             width=grid.width,
@@ -122,17 +131,19 @@ class GeoTiffWriter:
             transform=grid.transform,
             dtype=self.dtype.name,
             nodata=nodata,
-            **CODEC_OPTIONS[self.dtype.kind],
+            **WORKING_OPTIONS,
             blockxsize=block,
             blockysize=block,
         )
         self.staging_path.parent.mkdir(parents=True, exist_ok=True)
-        self._ds = rasterio.open(self.staging_path, "w", **profile)
+        self._ds = rasterio.open(self.working_path, "w", **profile)
         self._ds.set_band_description(1, description)
         if unit:
             self._ds.set_band_unit(1, unit)
         if band_tags:
             self._ds.update_tags(1, **{k: _tag_value(v) for k, v in band_tags.items()})
+        # How the overviews are made (GDAL's COG driver copies default-domain tags only).
+        self._ds.update_tags(1, overview_resampling="nearest" if categorical else "average")
         if dataset_tags:
             self._ds.update_tags(**{k: _tag_value(v) for k, v in dataset_tags.items()})
         if colormap is None and scheme is not None:
@@ -148,18 +159,38 @@ class GeoTiffWriter:
         arr = arr.astype(self.dtype, copy=False)
         if self._seen is not None:
             self._seen |= np.bincount(arr.ravel(), minlength=256)[:256] > 0
-        self._ds.write(arr, 1, window=window)
+        # As a (1, rows, cols) block: a 2-D array would be copied into one by rasterio.
+        self._ds.write(arr[np.newaxis], [1], window=window)
 
-    def finish(self) -> Path:
-        """Add overviews, close the file and move it into place."""
-        factors = overview_factors(self.grid.width, self.grid.height)
-        if factors:
-            # Built on the write handle: a reopened file would compress overviews at
-            # GDAL's default level, not ours.
-            method = Resampling.nearest if self.categorical else Resampling.average
-            self._ds.build_overviews(factors, method)
-            self._ds.update_tags(ns="rio_overview", resampling=method.name)
-        self._ds.close()
+    def close(self) -> None:
+        """Close the working file (after its last window); :meth:`finish` does it too."""
+        if not self._ds.closed:
+            self._ds.close()
+
+    def finish(self, threads: int = 1) -> Path:
+        """Make the Cloud-Optimized GeoTIFF with its overviews and move it into place.
+
+        Safe to call from any thread once the last window is written (one call per
+        writer); GDAL releases the GIL while it copies.
+
+        Parameters
+        ----------
+        threads : int
+            GDAL threads compressing the copy (the COG driver's ``NUM_THREADS``).
+        """
+        self.close()
+        method = Resampling.nearest if self.categorical else Resampling.average
+        rasterio.shutil.copy(
+            self.working_path,
+            self.staging_path,
+            driver="COG",
+            blocksize=self.tile_size,
+            overview_resampling=method.name.upper(),
+            bigtiff="IF_SAFER",
+            num_threads=str(max(1, int(threads))),
+            **COG_OPTIONS[self.dtype.kind],
+        )
+        self.working_path.unlink()
         if self.scheme is not None:
             # Category names (.aux.xml), a QGIS style listing only the classes present
             # (.qml) and an OGC SLD, staged with the file and moved in before it.
@@ -179,10 +210,11 @@ class GeoTiffWriter:
         return self.final_path
 
     def abort(self) -> None:
-        """Close and delete the staging file."""
+        """Close and delete the working and staging files."""
         try:
             self._ds.close()
         finally:
-            self.staging_path.unlink(missing_ok=True)
-            for suffix in (".aux.xml",):
-                Path(str(self.staging_path) + suffix).unlink(missing_ok=True)
+            for path in (self.working_path, self.staging_path):
+                path.unlink(missing_ok=True)
+                for suffix in (".aux.xml", ".ovr.tmp"):
+                    Path(str(path) + suffix).unlink(missing_ok=True)

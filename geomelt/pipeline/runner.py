@@ -20,6 +20,7 @@ import shutil
 import time
 import warnings
 from collections.abc import Callable
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -58,6 +59,7 @@ from geomelt.pipeline.engines import (
     release_free_memory,
 )
 from geomelt.pipeline.neighbourhood import MeltProximityCollector, melt_mask
+from geomelt.pipeline.writing import OutputSink, write_threads
 from geomelt.tectonics.boundaries import BoundarySet, suggest_tile_km
 from geomelt.tectonics.hotspots import HotspotSet
 
@@ -67,6 +69,7 @@ __all__ = [
     "RunResult",
     "check_output_location",
     "execute_run",
+    "finish_outputs",
     "open_output_writer",
     "plan_run",
     "resolve_chain",
@@ -92,16 +95,21 @@ class OutputStats:
     nodata_cells: int = 0
 
     def update(self, arr: np.ndarray, nodata: float) -> None:
-        a = np.asarray(arr, dtype=np.float64)
-        valid = np.isfinite(a) if np.isnan(nodata) else (a != nodata) & np.isfinite(a)
-        n = int(valid.sum())
+        a = np.asarray(arr)
+        if a.dtype.kind == "f":
+            valid = np.isfinite(a)
+            if not np.isnan(nodata):
+                valid &= a != nodata
+        else:
+            valid = a != nodata
+        n = int(np.count_nonzero(valid))
         self.valid_cells += n
         self.nodata_cells += int(a.size - n)
         if n:
-            v = a[valid]
+            v = a if n == a.size else a[valid]
             self.minimum = min(self.minimum, float(v.min()))
             self.maximum = max(self.maximum, float(v.max()))
-            self.total += float(v.sum())
+            self.total += float(v.sum(dtype=np.float64))
 
     @property
     def mean(self) -> float:
@@ -188,6 +196,39 @@ class RunResult:
     """Prospect polygons written to results.gpkg."""
     melt_production_km3_yr: float | None = None
     """Melt made in the whole region per year (when the run computes productivity)."""
+    phases_s: dict[str, float] = field(default_factory=dict)
+    """Wall time of each step of the run in seconds (logged with -v)."""
+
+
+class _PhaseClock:
+    """Wall time of the consecutive steps of a run, for the log and the benchmark."""
+
+    def __init__(self) -> None:
+        self.phases: dict[str, float] = {}
+        self._last = time.perf_counter()
+        self._last_cpu = time.process_time()
+
+    def lap(self, name: str) -> None:
+        now, cpu = time.perf_counter(), time.process_time()
+        wall = now - self._last
+        self.phases[name] = self.phases.get(name, 0.0) + wall
+        log.info(
+            "step %s took %.1f s, %.1f CPU s on all threads (peak memory so far %.0f MiB)",
+            name,
+            wall,
+            cpu - self._last_cpu,
+            _peak_rss_mib(),
+        )
+        self._last, self._last_cpu = now, cpu
+
+
+def _peak_rss_mib() -> float:
+    """Peak resident memory of this process so far, MiB (0 where unknown)."""
+    try:
+        import resource
+    except ImportError:  # not on Windows
+        return 0.0
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0  # KiB on Linux
 
 
 def _resolve_parameters(config: RunConfig, algorithms: list[Algorithm]) -> dict[str, ParameterSet]:
@@ -508,8 +549,10 @@ def execute_run(
         dask scheduler address, or ``"local"`` for a local cluster.
     """
     t0 = time.perf_counter()
+    clock = _PhaseClock()
     out_dir = Path(out_dir).expanduser().resolve()
     staging = _prepare_out_dir(out_dir, overwrite, plan)
+    release_free_memory()  # what planning read (input checks, reprojection) is not kept
     # Finished files wait in ``ready`` until every output is done, then all move into place
     # together: a failed or killed run leaves no output of its own under a final name.
     ready = staging / "ready"
@@ -528,6 +571,7 @@ def execute_run(
     flagged: dict[str, int] = {}
     totals: dict[str, np.ndarray] = {}
     by_name = {o.name: o for _, o in written}
+    sink: OutputSink | None = None
     try:
         with (
             warnings.catch_warnings(record=True) as caught,
@@ -550,6 +594,7 @@ def execute_run(
             for reader in readers.values():
                 reader.close()
             readers.clear()
+            clock.lap("open")
             windows = list(grid.windows(plan.block_size))
             n_steps = len(windows) * len(plan.stages)
             bar = _progress_bar(n_steps, progress)
@@ -562,27 +607,29 @@ def execute_run(
                     collector = MeltProximityCollector(grid)
             done = 0
 
+            def inspect(name: str, values: np.ndarray) -> None:
+                # On the writer thread that owns output ``name`` (see OutputSink).
+                out = by_name[name]
+                stats[name].update(values, out.nodata)
+                if out.flag_message:
+                    flagged[name] = flagged.get(name, 0) + int(np.count_nonzero(values == 1))
+
+            sink = OutputSink(writers, write_threads(workers), inspect)
+
             def consume(results) -> None:
                 nonlocal done
                 for result in results:
                     arrays, window = result.arrays, result.window
                     for name, n in result.implausible.items():
                         implausible[name] = implausible.get(name, 0) + n
-                    for name, values in arrays.items():
-                        out = by_name[name]
-                        writers[name].write(values, window)
-                        stats[name].update(values, out.nodata)
-                        if out.flag_message:
-                            flagged[name] = flagged.get(name, 0) + int(
-                                np.count_nonzero(values == 1)
-                            )
+                    sink.put(window, arrays)
                     summaries.add_summaries(totals, result.summaries)
                     if result.carry:
                         np.savez(carry_path(carry_dir, window), **result.carry)
                         if collector is not None:
                             collector.add(window, melt_mask(result.carry["melting_mechanism"]))
                     # Let go of the window's arrays before waiting for the next one.
-                    result = arrays = values = None
+                    result = arrays = None
                     done += 1
                     bar.update(1)
                     if on_window is not None:
@@ -590,6 +637,7 @@ def execute_run(
 
             consume(iterate_windows(plan, windows, engine, workers, scheduler))
             release_free_memory()
+            clock.lap("first_pass")
             if two_pass:
                 fields = {}
                 if collector is not None:
@@ -600,18 +648,20 @@ def execute_run(
                         f"a lattice of every {field_.stride} cell(s)"
                     )
                     plan.notes.append(proximity_note)
+                clock.lap("distance_field")
                 second = SecondPassComputer(plan, carry_dir, fields)
                 consume(iterate_windows(plan, windows, engine, workers, scheduler, computer=second))
                 shutil.rmtree(carry_dir, ignore_errors=True)
                 fields = second = collector = None
                 release_free_memory()
+                clock.lap("second_pass")
+            sink.close()
+            sink = None
             bar.close()
-            files = []
-            for w in writers.values():
-                files.append(w.finish())
-                files.extend(w.sidecars)
+            files = finish_outputs(writers, workers)
             writers.clear()
             release_free_memory()
+            clock.lap("finish_geotiffs")
         seen: set[str] = set(run_warnings)
         for w in caught:
             text = str(w.message)
@@ -632,6 +682,7 @@ def execute_run(
         if (ready / "setting.tif").exists() and "setting" in stats:
             n = products.write_setting_polygons(gpkg_stage, ready)
             log.info("settings: %d polygon(s)", n)
+            clock.lap("setting_polygons")
         boundaries = None
         if "plate_boundaries" in plan.frames:
             segment_km3_yr = totals.get("segment_production_km3_yr")
@@ -649,6 +700,7 @@ def execute_run(
             write_prospects_layer(gpkg_stage, prospects)
             products.style_prospects_layer(gpkg_stage)
             log.info("prospects: %d polygon(s)", len(prospects))
+        clock.lap("boundaries_and_prospects")
         outside = {
             name.removeprefix(OUTSIDE_CALIBRATION): int(values[0])
             for name, values in totals.items()
@@ -661,6 +713,7 @@ def execute_run(
                 entry = {"cells": outside[out.name], "where": out.calibration}
                 records.append(("outside_calibration", f"{out.name}.tif", json.dumps(entry)))
         write_run_metadata(gpkg_stage, records)
+        release_free_memory()  # before matplotlib comes in
         pairs = products.write_quicklooks(
             staging,
             ready,
@@ -668,6 +721,7 @@ def execute_run(
             hotspots=plan.frames.get("hotspots"),
             prospects=prospects,
         )
+        clock.lap("quicklooks")
         figures = [(_quicklook_title(staged), staged) for staged, _ in pairs]
         report_stage = staging / reporting.REPORT_NAME
         final_names = [p.relative_to(ready).as_posix() for p in files] + [RESULTS_GPKG]
@@ -693,7 +747,10 @@ def execute_run(
         files.append(ready / RESULTS_GPKG)
         files = products.move_into_place([(p, out_dir / p.relative_to(ready)) for p in files])
         _replace_manifest(out_dir, files, keep={p.resolve() for p in plan.config.inputs.values()})
+        clock.lap("report_and_move")
     except BaseException:
+        if sink is not None:
+            sink.abandon()
         for reader in readers.values():
             reader.close()
         for writer in writers.values():
@@ -715,6 +772,7 @@ def execute_run(
         report=out_dir / reporting.REPORT_NAME,
         prospects=0 if prospects is None else len(prospects),
         melt_production_km3_yr=None if total is None else float(total.sum()),
+        phases_s=clock.phases,
     )
 
 
@@ -768,6 +826,30 @@ def open_output_writer(
             "caution": geomelt.CAUTION,
         },
     )
+
+
+def finish_outputs(writers: dict[str, GeoTiffWriter], workers: int = 0) -> list[Path]:
+    """Finish every written output (see :meth:`GeoTiffWriter.finish`) and return the
+    finished files and their sidecars, in the order of ``writers``.
+
+    The working files are closed first, so their compression state is gone before the
+    copies start; the copies run outside the GIL, one file per writer thread at a time.
+    On an error the copies not started are cancelled and the others awaited.
+    """
+    for w in writers.values():
+        w.close()
+    release_free_memory()
+    files: list[Path] = []
+    with ThreadPoolExecutor(write_threads(workers), "geomelt-finish") as pool:
+        try:
+            finishing = {name: pool.submit(w.finish) for name, w in writers.items()}
+            for name, w in writers.items():
+                files.append(finishing[name].result())
+                files.extend(w.sidecars)
+        except BaseException:
+            pool.shutdown(wait=True, cancel_futures=True)
+            raise
+    return files
 
 
 def _progress_bar(total: int, enabled: bool):
