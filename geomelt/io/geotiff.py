@@ -167,16 +167,13 @@ class GeoTiffWriter:
         if not self._ds.closed:
             self._ds.close()
 
-    def finish(self, threads: int = 1) -> Path:
+    def finish(self) -> Path:
         """Make the Cloud-Optimized GeoTIFF with its overviews and move it into place.
 
         Safe to call from any thread once the last window is written (one call per
-        writer); GDAL releases the GIL while it copies.
-
-        Parameters
-        ----------
-        threads : int
-            GDAL threads compressing the copy (the COG driver's ``NUM_THREADS``).
+        writer); GDAL releases the GIL while it copies, on one thread of its own
+        (files finish in parallel instead, see
+        :func:`geomelt.pipeline.runner.finish_outputs`).
         """
         self.close()
         method = Resampling.nearest if self.categorical else Resampling.average
@@ -187,7 +184,6 @@ class GeoTiffWriter:
             blocksize=self.tile_size,
             overview_resampling=method.name.upper(),
             bigtiff="IF_SAFER",
-            num_threads=str(max(1, int(threads))),
             **COG_OPTIONS[self.dtype.kind],
         )
         self.working_path.unlink()

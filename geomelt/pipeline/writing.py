@@ -16,6 +16,8 @@ from collections.abc import Callable, Mapping
 import numpy as np
 from rasterio.windows import Window
 
+from geomelt.pipeline.engines import default_workers
+
 __all__ = ["OutputSink", "write_threads"]
 
 _STOP = object()
@@ -141,6 +143,4 @@ class OutputSink:
 def write_threads(workers: int = 0) -> int:
     """Writer threads for a run with ``workers`` compute workers (0: one per core): as
     many as there are workers, since compressing runs outside the GIL."""
-    from geomelt.pipeline.engines import default_workers
-
     return max(1, int(workers or 0) or default_workers())
