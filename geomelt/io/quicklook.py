@@ -14,7 +14,6 @@ name and moved into place.
 
 from __future__ import annotations
 
-import functools
 import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
@@ -30,6 +29,7 @@ from matplotlib.patches import Patch, Rectangle
 from matplotlib.ticker import FuncFormatter
 
 from geomelt.classes import ClassScheme
+from geomelt.io.rasters import crs_label
 from geomelt.io.styles import atomic_path
 
 __all__ = [
@@ -91,23 +91,6 @@ def _pyproj(crs):
     if hasattr(crs, "to_wkt"):
         return CRS.from_wkt(crs.to_wkt())
     return CRS.from_user_input(crs)
-
-
-def _crs_name(pc) -> str:
-    if pc is None:
-        return "no CRS"
-    return _crs_name_of_wkt(pc.to_wkt())
-
-
-@functools.lru_cache(maxsize=8)
-def _crs_name_of_wkt(wkt: str) -> str:
-    # Identifying a CRS that has no EPSG code searches the whole database (about 0.1 s):
-    # done once per run, not once per map.
-    from pyproj import CRS
-
-    pc = CRS.from_wkt(wkt)
-    epsg = pc.to_epsg()
-    return f"EPSG:{epsg}" if epsg else pc.name
 
 
 def nice_length(target: float) -> float:
@@ -241,7 +224,7 @@ class _Map:
         self.ax = self.fig.add_axes(_MAP_RECT)
         self.ax.set_facecolor("#ffffff")
         self.fig.text(0.07, 0.955, title, fontsize=13, fontweight="bold", va="top")
-        self.fig.text(0.07, 0.912, _crs_name(self.pc), fontsize=8, color="#555555", va="top")
+        self.fig.text(0.07, 0.912, crs_label(self.pc), fontsize=8, color="#555555", va="top")
         self.handles_extra: list = []
         self.labels_extra: list[str] = []
 

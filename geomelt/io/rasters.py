@@ -194,16 +194,23 @@ class RasterGrid:
         )
 
 
-def crs_label(crs: CRS | None) -> str:
-    """Short name of a CRS: ``EPSG:4326`` when it has a code, else its WKT name."""
+def crs_label(crs) -> str:
+    """Short name of a CRS (rasterio or pyproj): ``EPSG:4326`` when it has a code, else its
+    WKT name. Cached by WKT: identifying a CRS without a code searches the whole PROJ
+    database (about 0.1 s), too much to repeat for every map or file."""
     if crs is None:
         return "no CRS"
-    epsg = crs.to_epsg()
-    if epsg is not None:
-        return f"EPSG:{epsg}"
+    return _crs_label_of_wkt(crs.to_wkt())
+
+
+@functools.lru_cache(maxsize=16)
+def _crs_label_of_wkt(wkt: str) -> str:
     from pyproj import CRS as ProjCRS
 
-    pcrs = ProjCRS.from_wkt(crs.to_wkt())
+    pcrs = ProjCRS.from_wkt(wkt)
+    epsg = pcrs.to_epsg()
+    if epsg is not None:
+        return f"EPSG:{epsg}"
     if pcrs.name and pcrs.name.lower() != "unknown":
         return pcrs.name
     with warnings.catch_warnings():  # the PROJ string is only a label here
