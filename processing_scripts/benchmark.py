@@ -451,6 +451,7 @@ def child_io_floor(
         parameters=base.parameters,
         outputs=lambda _p: tuple(o for _, o in written),
         compute=cheap,
+        cellwise=False,  # replays whole windows
     )
     floor_plan = dataclasses.replace(
         plan,
@@ -483,7 +484,7 @@ def child_io_floor(
     }
     writers = {}
     files = []
-    with rasterio.Env(GDAL_CACHEMAX=engines.GDAL_CACHE_MB):  # as execute_run
+    with engines.bounded_gdal_cache():  # as execute_run
         for alg, o in written:
             # the run's own writer: same format options, styles and provenance tags
             writers[o.name] = runner.open_output_writer(

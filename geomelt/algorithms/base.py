@@ -65,6 +65,12 @@ class Algorithm:
         vectorised; arrays are float64 with NaN for nodata, one per input.
     references : tuple of str
         Published sources of the method.
+    cellwise : bool
+        True (the default) when each cell's outputs depend only on that cell's
+        inputs (and the vector layers): the pipeline may then compute a window in
+        bands of rows (:data:`geomelt.pipeline.engines.COMPUTE_BAND_CELLS`). An
+        algorithm that looks at its neighbours within the window, or at the
+        window's position, sets False.
     """
 
     id: str
@@ -78,6 +84,7 @@ class Algorithm:
     references: tuple[str, ...] = ()
     optional_inputs: tuple[str, ...] = ()
     keywords: tuple[str, ...] = ()
+    cellwise: bool = True
 
     def output_layers(self, params: ParameterSet | None = None) -> tuple[OutputLayer, ...]:
         """Output layers for the given (or default) parameters."""

@@ -698,11 +698,45 @@ def _valid(arr) -> np.ndarray:
     return data[~np.ma.getmaskarray(arr) & np.isfinite(data)]
 
 
+SCAN_STRIP_BYTES = 16 * 1024 * 1024
+"""Most bytes of full-resolution rows one read of the value pre-scan holds (a file's own
+strips or tile rows are read whole unless they are larger)."""
+
+
+def nearest_sample(ds, shape: tuple[int, int], band: int = 1) -> np.ma.MaskedArray:
+    """Band ``band`` of ``ds`` reduced to ``shape`` cells by nearest neighbour.
+
+    The same cells as ``ds.read(band, out_shape=shape, resampling=nearest, masked=True)``,
+    whose source cell is ``floor((i + 0.5) * size / n)`` on each axis. A file with
+    overviews is read that way (GDAL reads the overview). Without overviews GDAL takes
+    each output row from the blocks crossing it and, once its block cache is smaller
+    than a row of blocks, decompresses every block again for each output row; here the
+    file is read in full-width strips of its own block height instead, each block once,
+    whatever the cache size, holding at most :data:`SCAN_STRIP_BYTES` of rows.
+    """
+    height, width = ds.height, ds.width
+    if ds.overviews(band) or shape == (height, width):
+        return ds.read(band, out_shape=shape, resampling=Resampling.nearest, masked=True)
+    rows = np.floor((np.arange(shape[0]) + 0.5) * (height / shape[0])).astype(np.int64)
+    cols = np.floor((np.arange(shape[1]) + 0.5) * (width / shape[1])).astype(np.int64)
+    row_bytes = width * np.dtype(ds.dtypes[band - 1]).itemsize
+    step = max(1, min(ds.block_shapes[band - 1][0], SCAN_STRIP_BYTES // row_bytes))
+    parts = []
+    for start in range(0, height, step):
+        wanted = rows[(rows >= start) & (rows < start + step)]
+        if wanted.size == 0:
+            continue
+        top, bottom = int(wanted[0]), int(wanted[-1]) + 1
+        strip = ds.read(band, window=Window(0, top, width, bottom - top), masked=True)
+        parts.append(strip[wanted - top][:, cols])
+    return np.ma.concatenate(parts)
+
+
 def _sample_values(ds, layer: str, path: Path) -> tuple[np.ndarray, tuple[int, int], float]:
     """Valid values of a reduced read, the read's shape and the share of valid cells."""
     shape = (min(ds.height, SCAN_MAX_CELLS), min(ds.width, SCAN_MAX_CELLS))
     try:
-        values = _valid(ds.read(1, out_shape=shape, resampling=Resampling.nearest, masked=True))
+        values = _valid(nearest_sample(ds, shape))
         share = values.size / (shape[0] * shape[1])
         if values.size == 0 and shape != (ds.height, ds.width):
             # A sparse layer can hide between the sampled cells: read every block before

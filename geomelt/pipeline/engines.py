@@ -48,10 +48,23 @@ __all__ = [
 ENGINES = ("threads", "serial", "dask")
 """Engine names accepted by :func:`iterate_windows`."""
 
-GDAL_CACHE_MB = 32
-"""GDAL block cache per process, MB. Every output tile is written whole and once, so a
-small cache only makes GDAL compress and write tiles sooner; a large one held up to its
-size of finished, not yet compressed tiles of the ~100 outputs."""
+GDAL_CACHE_MB = 8
+"""GDAL block cache per process, MiB. Windows are read and written in whole tiles, each
+once, so the cache only needs the few source blocks one window's reprojection reads; a
+larger one holds finished, not yet compressed tiles of the ~70 outputs (32 MiB took
+about 50 MiB more resident memory on the 4096^2 benchmark and was no faster). Reads
+that reduce a grid do not lean on it (:func:`geomelt.io.rasters.nearest_sample`)."""
+
+
+def bounded_gdal_cache() -> rasterio.Env:
+    """A ``rasterio.Env`` bounding GDAL's block cache to :data:`GDAL_CACHE_MB`.
+
+    rasterio hands an integer ``GDAL_CACHEMAX`` to ``GDALSetCacheMax64``, which counts
+    bytes (checked with ``GDALGetCacheMax64`` on rasterio 1.4 / GDAL 3.10): ``32`` would
+    be a 32-byte cache, under which a reduced read decompresses every block once per
+    output row. Only a string in the environment of a new process is read as MB.
+    """
+    return rasterio.Env(GDAL_CACHEMAX=GDAL_CACHE_MB * 1024 * 1024)
 
 
 def release_free_memory() -> None:
@@ -131,6 +144,49 @@ def _run_algorithms(algorithms, arrays: dict, parameters, schedule=None) -> None
                     del arrays[name]
 
 
+COMPUTE_BAND_CELLS = 1 << 14
+"""Cells of a window the algorithms compute together (bands of whole rows) when every
+algorithm of the stage is ``cellwise`` (all registered ones are: whole-grid layers are
+computed between the passes), so a band gives the same values as the whole window; its
+float64 temporaries stay a quarter of a 256 x 256 window's and in the CPU caches (the
+boundary search, the largest, was fastest at this size; see
+``geomelt.tectonics.boundaries``)."""
+
+
+def _run_in_bands(algorithms, arrays: dict, parameters, schedule, keep) -> None:
+    """:func:`_run_algorithms` on bands of whole rows of the window's ``arrays`` (each at
+    most :data:`COMPUTE_BAND_CELLS` cells); the arrays named in ``keep`` that the
+    algorithms made (or replaced) are put together again into window-sized arrays in
+    ``arrays``."""
+    shapes = {v.shape for v in arrays.values() if isinstance(v, np.ndarray)}
+    if len(shapes) != 1 or len(next(iter(shapes))) != 2 or not all(a.cellwise for a in algorithms):
+        _run_algorithms(algorithms, arrays, parameters, schedule)
+        return
+    ((height, width),) = shapes
+    rows = max(1, COMPUTE_BAND_CELLS // max(1, width))
+    if height <= rows:
+        _run_algorithms(algorithms, arrays, parameters, schedule)
+        return
+    made: dict[str, np.ndarray] = {}
+    for top in range(0, height, rows):
+        given = {
+            name: value[top : top + rows] if isinstance(value, np.ndarray) else value
+            for name, value in arrays.items()
+        }
+        band = dict(given)
+        _run_algorithms(algorithms, band, parameters, schedule)
+        for name in keep:
+            value = band.get(name)
+            # What the algorithms made or replaced (an output may take an input's name).
+            if not isinstance(value, np.ndarray) or value is given.get(name):
+                continue
+            if name not in made:
+                made[name] = np.empty((height, width), dtype=value.dtype)
+            made[name][top : top + rows] = value
+        band = given = None
+    arrays.update(made)
+
+
 def _kept(plan, stage, written) -> set[str]:
     """Arrays of a window a stage must keep to its end: its written outputs, what the
     second pass reads, what the totals and the calibration counts read."""
@@ -180,7 +236,8 @@ class WindowComputer:
         self._lock = threading.Lock()
         first = {a.id for a in plan.stages[0]}
         self._written = [o for a, o in plan.outputs if o.written and a.id in first]
-        self._schedule = _drop_schedule(plan.stages[0], _kept(plan, plan.stages[0], self._written))
+        self._keep = _kept(plan, plan.stages[0], self._written)
+        self._schedule = _drop_schedule(plan.stages[0], self._keep)
 
     def _readers(self) -> dict[str, AlignedRaster]:
         readers = getattr(self._local, "readers", None)
@@ -198,7 +255,7 @@ class WindowComputer:
         plan = self.plan
         arrays: dict[str, Any] = dict(plan.vectors)
         implausible = {}
-        with rasterio.Env(GDAL_CACHEMAX=GDAL_CACHE_MB):
+        with bounded_gdal_cache():
             for name, reader in self._readers().items():
                 arr = reader.read(window)
                 arrays[name] = arr
@@ -208,7 +265,7 @@ class WindowComputer:
                         bad = (arr < lo_hi[0]) | (arr > lo_hi[1])
                     implausible[name] = int(np.count_nonzero(bad))
         arrays.update(_grid_layers(plan, window, plan.grid_layers))
-        _run_algorithms(plan.stages[0], arrays, plan.parameters, self._schedule)
+        _run_in_bands(plan.stages[0], arrays, plan.parameters, self._schedule, self._keep)
         return WindowResult(
             window,
             {o.name: arrays[o.name] for o in self._written},
@@ -244,7 +301,8 @@ class SecondPassComputer:
         self.fields = fields
         second = {a.id for a in plan.stages[1]}
         self._written = [o for a, o in plan.outputs if o.written and a.id in second]
-        self._schedule = _drop_schedule(plan.stages[1], _kept(plan, plan.stages[1], self._written))
+        self._keep = _kept(plan, plan.stages[1], self._written)
+        self._schedule = _drop_schedule(plan.stages[1], self._keep)
         # Only the grid layers the second-pass algorithms read: the cell coordinates cost a
         # map-projection inverse per cell, the first pass's totals already have the areas.
         self._grid_layers = {
@@ -268,7 +326,7 @@ class SecondPassComputer:
                 window, melting
             )
         arrays.update(_grid_layers(plan, window, self._grid_layers - set(arrays)))
-        _run_algorithms(plan.stages[1], arrays, plan.parameters, self._schedule)
+        _run_in_bands(plan.stages[1], arrays, plan.parameters, self._schedule, self._keep)
         return WindowResult(
             window,
             {o.name: arrays[o.name] for o in self._written},

@@ -120,3 +120,33 @@ def test_grid_description_and_bounds():
     )
     assert grid.bounds == (0, 80, 30, 100)
     assert "3 x 2 cells" in grid.describe()
+
+
+@pytest.mark.parametrize("tiled", [True, False])
+@pytest.mark.parametrize("shape", [(256, 256), (255, 97), (7, 3), (300, 300)])
+def test_nearest_sample_equals_gdals_reduced_read(tmp_path, tiled, shape):
+    # Reference: GDAL's own nearest-neighbour reduced read (RasterIO with out_shape),
+    # under a cache too small to hold a row of blocks; nearest_sample reads strips of
+    # full rows instead and must pick the same cells, with the same mask.
+    from rasterio.env import Env
+
+    from geomelt.io.rasters import nearest_sample
+
+    rng = np.random.default_rng(1)
+    data = rng.normal(30.0, 5.0, (1000, 777)).astype("float32")
+    data[rng.random(data.shape) < 0.1] = -9999.0
+    path = tmp_path / "r.tif"
+    profile = dict(driver="GTiff", width=777, height=1000, count=1, dtype="float32")
+    profile.update(crs=LAEA, transform=from_origin(0, 0, 1000, 1000), nodata=-9999.0)
+    profile.update(compress="deflate")
+    if tiled:
+        profile.update(tiled=True, blockxsize=128, blockysize=128)
+    with rasterio.open(path, "w", **profile) as dst:
+        dst.write(data, 1)
+    shape = (min(shape[0], 1000), min(shape[1], 777))
+    with rasterio.open(path) as ds, Env(GDAL_CACHEMAX=64 * 1024):
+        want = ds.read(1, out_shape=shape, resampling=Resampling.nearest, masked=True)
+        got = nearest_sample(ds, shape)
+    assert got.shape == want.shape == shape
+    np.testing.assert_array_equal(np.ma.getmaskarray(got), np.ma.getmaskarray(want))
+    np.testing.assert_array_equal(got.filled(0.0), want.filled(0.0))
