@@ -186,3 +186,17 @@ def test_lonlat_at_equals_the_window_centres():
     got_lon, got_lat = grid.lonlat_at(rows, cols)
     np.testing.assert_allclose(got_lon, lon[rows, cols], rtol=0, atol=1e-12)
     np.testing.assert_allclose(got_lat, lat[rows, cols], rtol=0, atol=1e-12)
+
+
+def test_lattice_queried_in_bands_gives_the_same_field(monkeypatch):
+    # finish() measures the lattice a band of rows at a time to bound its memory; the
+    # bands must not change a distance (same tree, same nodes, same arithmetic).
+    import geomelt.pipeline.neighbourhood as nb
+
+    grid = RasterGrid(LAEA, Affine(10_000.0, 0, 0.0, 0, -10_000.0, 0.0), 50, 41)
+    melt = _blobs(grid.shape, seed=5)
+    whole = _field(grid, melt, block=16)
+    monkeypatch.setattr(nb, "LATTICE_QUERY_NODES", 7)  # bands of one row (41 nodes)
+    banded = _field(grid, melt, block=16)
+    np.testing.assert_array_equal(whole.node_distance_km, banded.node_distance_km)
+    assert whole.node_distance_km.dtype == banded.node_distance_km.dtype == np.float32

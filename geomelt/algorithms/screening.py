@@ -57,10 +57,15 @@ def _outputs(params) -> tuple[OutputLayer, ...]:
 
 
 def _compute(arrays: Mapping, params: MineralScreeningParameters) -> dict:
-    valid = np.isfinite(arrays["crustal_thickness_km"])
+    invalid = ~np.isfinite(arrays["crustal_thickness_km"])
     fields = {k: arrays[k] for k in MINERAL_SCREENING.inputs}
-    out = mineral_screening(fields, params)
-    return {k: np.where(valid, v, np.nan).astype(np.float32) for k, v in out.items()}
+    out = {}
+    for system in MINERAL_SYSTEMS:  # one system at a time: its float64 factors, not all
+        for name, values in mineral_screening(fields, params, (system,)).items():
+            values = values.astype(np.float32)
+            values[invalid] = np.nan
+            out[name] = values
+    return out
 
 
 _REFERENCES = tuple(dict.fromkeys(ref for s in MINERAL_SYSTEMS for ref in s.references))

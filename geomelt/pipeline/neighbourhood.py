@@ -52,6 +52,10 @@ EARTH_MEAN_RADIUS_KM = float(_EARTH_RADIUS.value)
 LATTICE_MAX_NODES_PER_SIDE = 1024
 """Most lattice nodes along a side; larger grids use every ``stride``-th cell."""
 
+LATTICE_QUERY_NODES = 65536
+"""Lattice nodes measured per k-d tree query (a band of lattice rows): bounds the memory
+of :meth:`MeltProximityCollector.finish` to a few MiB."""
+
 _ALL_MECHANISMS = int(Mechanism.DECOMPRESSION | Mechanism.FLUX | Mechanism.CRUSTAL_HEATING)
 
 
@@ -175,16 +179,17 @@ class MeltProximityCollector:
         self._edge_rows.clear()
         self._edge_cols.clear()
         tree = cKDTree(_unit_vectors(*self.grid.lonlat_at(rows, cols)))
-        nr, nc = np.meshgrid(self.node_rows, self.node_cols, indexing="ij")
-        todo = ~self.node_melt.ravel()
-        dist = np.zeros(self.node_melt.size, dtype=np.float64)
-        if todo.any():
-            lon, lat = self.grid.lonlat_at(nr.ravel()[todo], nc.ravel()[todo])
+        dist = np.zeros(shape, dtype=np.float32)
+        # A band of lattice rows at a time: the coordinates, unit vectors and query
+        # results of all (up to a million) nodes at once would take ~100 MiB.
+        band = max(1, LATTICE_QUERY_NODES // max(1, shape[1]))
+        for top in range(0, shape[0], band):
+            todo = ~self.node_melt[top : top + band]
+            if not todo.any():
+                continue
+            ir, ic = np.nonzero(todo)
+            lon, lat = self.grid.lonlat_at(self.node_rows[ir + top], self.node_cols[ic])
             chord, _ = tree.query(_unit_vectors(lon, lat), k=1, workers=max(1, workers))
-            dist[todo] = 2.0 * EARTH_MEAN_RADIUS_KM * np.arcsin(np.minimum(chord / 2.0, 1.0))
-        return MeltProximityField(
-            self.node_rows,
-            self.node_cols,
-            dist.reshape(shape).astype(np.float32),
-            int(rows.size),
-        )
+            arc = 2.0 * EARTH_MEAN_RADIUS_KM * np.arcsin(np.minimum(chord / 2.0, 1.0))
+            dist[ir + top, ic] = arc
+        return MeltProximityField(self.node_rows, self.node_cols, dist, int(rows.size))
