@@ -55,6 +55,12 @@ WORKING_OPTIONS: dict[str, Any] = {"compress": "zstd", "zstd_level": 1, "predict
 Measured on 4096 x 4096 float32 fields of a run: 0.08 s to write against 0.18 s with the
 floating-point predictor, for 44 instead of 27 MB; the copy into the COG took the same."""
 
+WORKING_TILE_CELLS = 128
+"""Tile side of the working files (the finished COGs have tiles of ``tile_size``). Every
+open working file holds buffers of about two tiles; with ~70 outputs open at once, tiles
+of 128 cells instead of 256 took 22 MiB off a run's resident memory (measured on the
+4096^2 benchmark region) and did not slow the writing or the COG copy."""
+
 WORKING_SUFFIX = ".part.tif"
 """Ending of the working file an output is written into before it is finished."""
 
@@ -123,6 +129,7 @@ class GeoTiffWriter:
         # windows must cover whole tiles or compressed tiles get rewritten.
         block = 256 if block_size % 256 == 0 else max(16, block_size // 16 * 16)
         self.tile_size = block
+        working = WORKING_TILE_CELLS if block % WORKING_TILE_CELLS == 0 else block
         profile = dict(
             GEOTIFF_PROFILE,
             width=grid.width,
@@ -132,8 +139,8 @@ class GeoTiffWriter:
             dtype=self.dtype.name,
             nodata=nodata,
             **WORKING_OPTIONS,
-            blockxsize=block,
-            blockysize=block,
+            blockxsize=working,
+            blockysize=working,
         )
         self.staging_path.parent.mkdir(parents=True, exist_ok=True)
         self._ds = rasterio.open(self.working_path, "w", **profile)
