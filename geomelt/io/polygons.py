@@ -349,21 +349,8 @@ def _clip_to_grid(geoms, codes, transform: Affine, shape: tuple[int, int]):
 # --------------------------------------------------------------------------- zonal summary
 
 
-def _dense_codes(values: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Distinct codes and each value's index among them (like ``np.unique`` with
-    ``return_inverse``), by a lookup table when the codes span a small range (no sort)."""
-    if values.size == 0:
-        return values[:0], np.zeros(0, dtype=np.int64)
-    lo, hi = int(values.min()), int(values.max())
-    if hi - lo >= 1 << 16:
-        present, inv = np.unique(values, return_inverse=True)
-        return present, inv.ravel().astype(np.int64)
-    shifted = (values.astype(np.int64) - lo) if lo else values
-    counts = np.bincount(shifted, minlength=hi - lo + 1)
-    offsets = np.flatnonzero(counts)
-    lut = np.zeros(hi - lo + 1, dtype=np.int64)
-    lut[offsets] = np.arange(offsets.size)
-    return (offsets + lo).astype(values.dtype), lut[shifted]
+ZONAL_BAND_CELLS = 1 << 18
+"""Cells of a raster :func:`zonal_summary` reads at a time (whole rows)."""
 
 
 def zonal_summary(
@@ -417,35 +404,51 @@ def zonal_summary(
     else:
         ids = np.zeros(shape, dtype=np.int32)
 
-    weights = None
+    cos_lat = None
     if out.crs is not None and _pyproj_crs(out.crs).is_geographic:
         rows = np.arange(shape[0]) + 0.5
-        lat = transform.f + transform.e * rows
-        weights = np.broadcast_to(np.cos(np.radians(lat))[:, None], shape)
+        cos_lat = np.cos(np.radians(transform.f + transform.e * rows))
 
-    inside = ids > 0
+    # Rows in bands: the per-cell temporaries of a whole reduced raster (1500^2 cells)
+    # took ~60 MiB; the per-polygon sums are added up band by band.
+    step = max(1, ZONAL_BAND_CELLS // max(1, shape[1]))
+    bands = [slice(top, top + step) for top in range(0, shape[0], step)]
+
+    def band_weights(band, ok):
+        if cos_lat is None:
+            return None
+        return np.broadcast_to(cos_lat[band, None], ok.shape)[ok]
+
     nodata = dict(nodata or {})
     for name, raster in rasters.items():
         values = np.asarray(raster)
         if values.dtype.kind == "f":
-            ok = inside & np.isfinite(values)
-            if name in nodata and nodata[name] is not None and np.isfinite(nodata[name]):
-                ok &= values != nodata[name]
-            w = weights[ok] if weights is not None else None
-            idx = ids[ok]
-            v = values[ok].astype(np.float64)
-            total_w = np.bincount(idx, weights=w, minlength=n + 1)
-            total_v = np.bincount(idx, weights=v * w if w is not None else v, minlength=n + 1)
+            fill = nodata.get(name)
+            total_w = np.zeros(n + 1)
+            total_v = np.zeros(n + 1)
+            for band in bands:
+                part = values[band]
+                ok = (ids[band] > 0) & np.isfinite(part)
+                if fill is not None and np.isfinite(fill):
+                    ok &= part != fill
+                w = band_weights(band, ok)
+                idx = ids[band][ok]
+                v = part[ok].astype(np.float64)
+                total_w += np.bincount(idx, weights=w, minlength=n + 1)
+                total_v += np.bincount(idx, weights=v * w if w is not None else v, minlength=n + 1)
             with np.errstate(invalid="ignore", divide="ignore"):
                 mean = np.where(total_w > 0, total_v / total_w, np.nan)
             out[f"mean_{name}"] = mean[1:]
         elif values.dtype.kind in "ui":
-            ok = inside & (values != class_nodata)
-            idx = ids[ok]
-            present, inv = _dense_codes(values[ok])
+            present = np.unique(values[(ids > 0) & (values != class_nodata)])
             k = max(1, present.size)
-            w = weights[ok] if weights is not None else None
-            table = np.bincount(idx.astype(np.int64) * k + inv, weights=w, minlength=(n + 1) * k)
+            table = np.zeros((n + 1) * k)
+            for band in bands:
+                part = values[band]
+                ok = (ids[band] > 0) & (part != class_nodata)
+                key = np.searchsorted(present, part[ok]).astype(np.int64)
+                key += ids[band][ok].astype(np.int64) * k
+                table += np.bincount(key, weights=band_weights(band, ok), minlength=(n + 1) * k)
             table = table.reshape(n + 1, k)[1:]
             total = table.sum(axis=1)
             has = total > 0

@@ -331,13 +331,15 @@ def _read(path: Path, max_cells: int, categorical: bool) -> _Reduced:
         if arr.dtype.kind not in "ui":
             msg = f"{path.name}: class raster holds {arr.dtype}, not integer class codes"
             raise ValueError(msg)
-        codes = arr.astype(np.int64)
-        bad = (codes < 0) | (codes >= CLASS_NODATA)
+        # Compared in the raster's own integer type: no int64 copy of a reduced grid.
+        bad = (arr < 0) | (arr >= CLASS_NODATA)
         if nodata is not None and math.isfinite(nodata):
-            bad |= codes == int(nodata)
-        arr = np.where(bad, CLASS_NODATA, codes).astype(np.uint8)
+            bad |= arr == int(nodata)
+        arr = np.where(bad, CLASS_NODATA, arr).astype(np.uint8)
     else:
-        arr = arr.astype(np.float64)
+        # float32 outputs stay float32 (each value is exact in float64 wherever a sum
+        # needs it); integer or float64 rasters become float64.
+        arr = arr.astype(np.float32 if arr.dtype == np.float32 else np.float64)
         if nodata is not None and not math.isnan(nodata):
             arr[arr == nodata] = np.nan
         arr[~np.isfinite(arr)] = np.nan
@@ -582,7 +584,11 @@ def _screen_prospects(
         n = int(keep.sum())
 
     mean_score = _zonal_mean(score, labels, mask, n, weights)
-    max_score = np.asarray(ndimage.maximum(score, labels, np.arange(1, n + 1)), dtype=np.float64)
+    # Per-region maximum without scipy.ndimage.maximum's sort of every labelled cell
+    # (int64 orderings of the whole reduced grid, ~20 MiB at 1500^2 cells).
+    max_score = np.full(n + 1, -np.inf)
+    np.maximum.at(max_score, labels[mask], score[mask])
+    max_score = max_score[1:]
     # Factors are read one at a time, after the polygons are known, to bound memory.
     means = np.empty((n, len(screen.factor_layers)))
     for j, (_, stem, _) in enumerate(screen.factor_layers):

@@ -38,9 +38,10 @@ __all__ = [
 
 log = logging.getLogger(__name__)
 
-QUICKLOOK_MAX_CELLS = 1000
-"""Quick-looks are drawn from rasters reduced to at most this many cells a side (the figure
-is 1000 pixels wide, so finer reads add memory, not detail)."""
+QUICKLOOK_MAX_CELLS = 600
+"""Quick-looks are drawn from rasters reduced to at most this many cells a side: the map
+takes 600 x 555 pixels of the 1000 x 750 figure (``quicklook._MAP_RECT``), so finer reads
+add memory (about 35 MiB more at 1000 cells), not detail."""
 POLYGON_MAX_CELLS = 1500
 """Setting polygons are traced on the setting raster reduced to at most this many cells a side."""
 POLYGON_MIN_CELLS = 8
