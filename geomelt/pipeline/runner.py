@@ -270,7 +270,7 @@ def _bounded_gdal_cache(func):
 
     GDAL's default cache is 5 % of the machine's memory (1.2 GB on a 24 GB machine), and
     every block a run reads or writes passes through it: unbounded, the value pre-scans
-    of a 8192^2 run's planning alone kept 250 MiB of blocks. Bounded, a run's memory does
+    of an 8192^2 run's planning alone kept 250 MiB of blocks. Bounded, a run's memory does
     not depend on the machine or grow with the grid.
     """
 
