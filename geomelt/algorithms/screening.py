@@ -60,7 +60,8 @@ def _compute(arrays: Mapping, params: MineralScreeningParameters) -> dict:
     invalid = ~np.isfinite(arrays["crustal_thickness_km"])
     fields = {k: arrays[k] for k in MINERAL_SCREENING.inputs}
     out = {}
-    for system in MINERAL_SYSTEMS:  # one system at a time: its float64 factors, not all
+    # One system at a time: only its float64 factors are alive, not every system's.
+    for system in MINERAL_SYSTEMS:
         for name, values in mineral_screening(fields, params, (system,)).items():
             values = values.astype(np.float32)
             values[invalid] = np.nan

@@ -11,7 +11,6 @@ from __future__ import annotations
 
 import dataclasses
 import difflib
-import functools
 import hashlib
 import json
 import logging
@@ -265,24 +264,7 @@ def resolve_chain(
     return algorithms, _resolve_parameters(config, algorithms)
 
 
-def _bounded_gdal_cache(func):
-    """Run ``func`` with GDAL's block cache bounded (:func:`engines.bounded_gdal_cache`).
-
-    GDAL's default cache is 5 % of the machine's memory (1.2 GB on a 24 GB machine), and
-    every block a run reads or writes passes through it: unbounded, the value pre-scans
-    of an 8192^2 run's planning alone kept 250 MiB of blocks. Bounded, a run's memory does
-    not depend on the machine or grow with the grid.
-    """
-
-    @functools.wraps(func)
-    def bounded(*args, **kwargs):
-        with bounded_gdal_cache():
-            return func(*args, **kwargs)
-
-    return bounded
-
-
-@_bounded_gdal_cache
+@bounded_gdal_cache()
 def plan_run(config: RunConfig, algorithm_ids: list[str] | None = None) -> RunPlan:
     """Resolve and check a run without writing anything.
 
@@ -533,7 +515,7 @@ def _prepare_out_dir(out_dir: Path, overwrite: bool, plan: RunPlan) -> Path:
     return staging
 
 
-@_bounded_gdal_cache
+@bounded_gdal_cache()
 def execute_run(
     plan: RunPlan,
     out_dir,
