@@ -47,6 +47,7 @@ __all__ = [
     "equal_area_crs_for",
     "is_equal_area",
     "polygon_areas_km2",
+    "row_area_weights",
     "zonal_summary",
 ]
 
@@ -349,6 +350,16 @@ def _clip_to_grid(geoms, codes, transform: Affine, shape: tuple[int, int]):
 # --------------------------------------------------------------------------- zonal summary
 
 
+def row_area_weights(crs, transform, n_rows: int) -> np.ndarray | None:
+    """Relative cell area of each row of a north-up grid: cos(latitude of the row's
+    centres) on a geographic CRS (a cell spans dlon x dlat, whose area on the sphere is
+    proportional to cos(latitude)); None on a projected or missing CRS."""
+    if crs is None or not _pyproj_crs(crs).is_geographic:
+        return None
+    rows = np.arange(n_rows) + 0.5
+    return np.cos(np.radians(transform.f + transform.e * rows))
+
+
 ZONAL_BAND_CELLS = 1 << 18
 """Cells of a raster :func:`zonal_summary` reads at a time (whole rows)."""
 
@@ -404,10 +415,7 @@ def zonal_summary(
     else:
         ids = np.zeros(shape, dtype=np.int32)
 
-    cos_lat = None
-    if out.crs is not None and _pyproj_crs(out.crs).is_geographic:
-        rows = np.arange(shape[0]) + 0.5
-        cos_lat = np.cos(np.radians(transform.f + transform.e * rows))
+    cos_lat = row_area_weights(out.crs, transform, shape[0])
 
     # Rows in bands: the per-cell temporaries of a whole reduced raster (1500^2 cells)
     # took ~60 MiB; the per-polygon sums are added up band by band.

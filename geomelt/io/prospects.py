@@ -67,7 +67,7 @@ from scipy import ndimage
 
 from geomelt.classes import CLASS_NODATA, MAGMA_TYPE, MELTING_MECHANISM, SETTING, ClassScheme
 from geomelt.io.geopackage import GPKG_DATASET_OPTIONS
-from geomelt.io.polygons import is_equal_area, polygon_areas_km2
+from geomelt.io.polygons import is_equal_area, polygon_areas_km2, row_area_weights
 from geomelt.io.rasters import read_reduced
 
 __all__ = [
@@ -454,11 +454,8 @@ def _lonlat(points: np.ndarray, crs) -> tuple[np.ndarray, np.ndarray]:
 
 def _cell_weights(grid: _Reduced) -> np.ndarray | None:
     """Relative cell areas (cosine of latitude) on a geographic grid, else None."""
-    if grid.crs is None or not CRS.from_user_input(grid.crs.to_wkt()).is_geographic:
-        return None
-    rows = np.arange(grid.array.shape[0]) + 0.5
-    lat = grid.transform.f + grid.transform.e * rows
-    return np.broadcast_to(np.cos(np.radians(lat))[:, None], grid.array.shape)
+    cos_lat = row_area_weights(grid.crs, grid.transform, grid.array.shape[0])
+    return None if cos_lat is None else np.broadcast_to(cos_lat[:, None], grid.array.shape)
 
 
 def _zonal_mean(values, ids, ok, n, weights) -> np.ndarray:

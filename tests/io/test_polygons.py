@@ -230,3 +230,25 @@ def test_zonal_summary_in_row_bands_equals_one_pass(monkeypatch, crs):
         w = np.broadcast_to(np.cos(np.radians(lat))[:, None], a.shape)
     direct = np.sum(thickness[ok] * w[ok]) / np.sum(w[ok])
     assert banded["mean_melt_thickness_km"].iloc[0] == pytest.approx(direct, rel=1e-9)
+
+
+def test_row_area_weights_follow_geodesic_cell_areas():
+    # Reference: pyproj.Geod (Karney 2013) areas of 0.05-degree cells on WGS84. The
+    # cos(latitude) weights are the sphere's ratio; the ellipsoid's area element adds the
+    # factor (1 - e^2 sin^2 lat)^-2, at most 2 e^2 = 1.34 % from the equator to the pole
+    # (e^2 = 0.00669 for WGS84, Snyder 1987 p. 13).
+    from geomelt.io.polygons import row_area_weights
+
+    tr = Affine(0.05, 0, -30.0, 0, -0.05, 70.0)
+    weights = row_area_weights("EPSG:4326", tr, 1400)  # rows from 70 N to 0
+    geod = Geod(ellps="WGS84")
+
+    def cell_area(row):
+        top = tr.f + tr.e * row
+        lons, lats = [-30.0, -29.95, -29.95, -30.0], [top, top, top - 0.05, top - 0.05]
+        return abs(geod.polygon_area_perimeter(lons, lats)[0])
+
+    for row in (0, 300, 900, 1399):
+        ratio = cell_area(row) / cell_area(1399)
+        assert weights[row] / weights[1399] == pytest.approx(ratio, rel=1.4e-2)
+    assert row_area_weights(LAEA, tr, 10) is None
