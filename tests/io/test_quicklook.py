@@ -99,6 +99,50 @@ def test_continuous_map_and_decimation(tmp_path, overlays):
     assert info.legend_labels == ()
 
 
+def test_continuous_map_colours_are_matplotlibs(tmp_path):
+    # The map is coloured before matplotlib draws it; the colours must be the ones
+    # matplotlib's own colour map gives for those values (reference: matplotlib.colormaps).
+    import matplotlib
+
+    x = np.zeros((300, 400), np.float32)
+    x[:, 200:] = 12.0
+    x[:, 100:200] = 3.0
+    x[:50, :50] = np.nan
+    out = tmp_path / "c.png"
+    continuous_map_png(out, x, TRANSFORM, CRS, "Values", "km", cmap="magma", vmin=0.0, vmax=12.0)
+    pixels = {
+        tuple(p) for p in (mpimg.imread(out)[..., :3] * 255).round().astype(int).reshape(-1, 3)
+    }
+    cmap = matplotlib.colormaps["magma"]
+    for value in (0.0, 3.0, 12.0):
+        assert tuple(int(c) for c in cmap(value / 12.0, bytes=True)[:3]) in pixels
+
+
+def test_footnote_wrapped_inside_the_figure(tmp_path):
+    # A caution longer than one line on a narrow figure: wrapped onto several lines, none
+    # running past the right edge (the last 2 % of the columns stay background).
+    import geomelt
+
+    out = tmp_path / "n.png"
+    continuous_map_png(
+        out,
+        class_array().astype(np.float32),
+        TRANSFORM,
+        CRS,
+        "Narrow",
+        "1",
+        footnote=geomelt.CAUTION,
+        figsize=(6.0, 4.5),
+    )
+    img = mpimg.imread(out)[..., :3]
+    band = img[-40:]  # the footnote sits in the bottom 40 pixels
+    inked = (band < 0.9).any(axis=2)
+    assert not inked[:, -int(0.02 * band.shape[1]) :].any()
+    rows = np.flatnonzero(inked.any(axis=1))
+    lines = 1 + np.count_nonzero(np.diff(rows) > 1)
+    assert lines >= 2
+
+
 def test_scale_bar_geographic(tmp_path):
     a = class_array(200, 300)
     tr = Affine(0.02, 0, 10.0, 0, -0.02, 62.0)  # 6 x 4 degrees at 58-62 N
