@@ -17,7 +17,7 @@ from __future__ import annotations
 import math
 import textwrap
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 import numpy as np
@@ -62,6 +62,9 @@ _UNKNOWN_CLASS_RGBA = (128, 128, 128, 255)
 # Map box in figure fractions; legends and colour bar go to the right of the map as
 # drawn (after its aspect ratio is applied).
 _MAP_RECT = (0.07, 0.14, 0.60, 0.74)
+_LABEL_SPACING = 0.035
+"""Least distance between the centres of two rank labels on a prospects map, as a fraction
+of the map's longer side (~20 pixels on the 600-pixel map: the circled labels just clear)."""
 _FOOTNOTE_CHARS_PER_INCH = 19
 """Characters of the 6.5-point footnote per inch of figure width (DejaVu Sans averages about
 20; matplotlib's own wrapping fits 198 characters on the 10-inch figure)."""
@@ -82,6 +85,8 @@ class QuicklookInfo:
     north_angle_deg: float
     """Direction of the arrow, degrees clockwise from the top of the map."""
     decimation: int
+    label_positions: tuple[tuple[float, float], ...] = ()
+    """Where the rank labels of a prospects map were put (map coordinates, rank order)."""
 
 
 # --------------------------------------------------------------------------- helpers
@@ -621,6 +626,44 @@ def continuous_map_png(
     return _finish(m, path, title, None, boundaries, hotspots, footnote)
 
 
+def place_labels(
+    points: Sequence[tuple[float, float]], spacing: float, y_scale: float = 1.0
+) -> list[tuple[float, float]]:
+    """Positions for labels that must not cover one another, taken in order.
+
+    A label goes on its point unless that is closer than ``spacing`` to a label
+    already placed; then it goes to the first free place on rings of eight
+    positions (radius 1, 2, 3 x ``spacing``, starting straight up) around its point,
+    or on its point when none is free.
+
+    Parameters
+    ----------
+    points : sequence of (x, y)
+        Anchor of each label, map coordinates, most important first.
+    spacing : float
+        Least distance between label centres, in x units.
+    y_scale : float
+        On-screen length of one y unit in x units (the axes' aspect ratio; 1 on a
+        projected map, ``1 / cos(latitude)`` on a geographic one).
+    """
+    placed: list[tuple[float, float]] = []
+
+    def free(x: float, y: float) -> bool:
+        return all(math.hypot(x - px, (y - py) * y_scale) >= spacing for px, py in placed)
+
+    for x, y in points:
+        spot = (x, y)
+        if not free(x, y):
+            rings = [
+                (x + r * spacing * math.sin(a), y + r * spacing * math.cos(a) / y_scale)
+                for r in (1, 2, 3)
+                for a in (k * math.pi / 4.0 for k in range(8))
+            ]
+            spot = next(((cx, cy) for cx, cy in rings if free(cx, cy)), spot)
+        placed.append(spot)
+    return placed
+
+
 def prospects_map_png(
     path,
     setting: np.ndarray,
@@ -664,6 +707,7 @@ def prospects_map_png(
     m.show(lut[np.clip(small, 0, 255)])
     frame = _as_gdf(prospects, m.pc)
     handles, labels = [], []
+    label_positions: list[tuple[float, float]] = []
     if frame is not None:
         import shapely
 
@@ -683,17 +727,28 @@ def prospects_map_png(
             )
             handles.append(Patch(facecolor=colour + "40", edgecolor=colour, linewidth=1.3))
             labels.append(f"{titles.get(key, key)} ({len(part)})")
-        for _, row in frame[frame["rank"] <= label_top].iterrows():
-            pt = row.geometry.representative_point()
+        top = frame[frame["rank"] <= label_top].sort_values("rank")
+        anchors = [(p.x, p.y) for p in top.geometry.representative_point()]
+        left, right, bottom, up = m.extent
+        y_scale = 1.0
+        if m.geographic:
+            y_scale = 1.0 / max(math.cos(math.radians((bottom + up) / 2.0)), 0.05)
+        spacing = _LABEL_SPACING * max(right - left, (up - bottom) * y_scale)
+        label_positions = place_labels(anchors, spacing, y_scale)
+        for rank, anchor, spot in zip(top["rank"], anchors, label_positions, strict=True):
+            moved = spot != anchor
             m.ax.annotate(
-                str(int(row["rank"])),
-                (pt.x, pt.y),
+                str(int(rank)),
+                anchor,
+                xytext=spot,
+                textcoords="data",
                 fontsize=7,
                 fontweight="bold",
                 ha="center",
                 va="center",
                 zorder=6,
                 bbox={"boxstyle": "circle,pad=0.15", "fc": "white", "ec": "#333333", "lw": 0.6},
+                arrowprops={"arrowstyle": "-", "color": "#333333", "lw": 0.6} if moved else None,
             )
     legend = m.fig.legend(
         handles,
@@ -705,4 +760,5 @@ def prospects_map_png(
         title="Prospects by screen (count)",
         title_fontsize=9,
     )
-    return _finish(m, path, "Ranked prospects", legend, boundaries, hotspots, footnote)
+    info = _finish(m, path, "Ranked prospects", legend, boundaries, hotspots, footnote)
+    return replace(info, label_positions=tuple(label_positions))

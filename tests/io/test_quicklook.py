@@ -195,3 +195,57 @@ def test_prospects_map_labels_screens_and_ranks(tmp_path):
     assert info.path.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     # screens without prospects are left out of the legend; counts are shown
     assert info.legend_labels == ("Geothermal heat source (1)", "Porphyry (1)")
+
+
+def test_place_labels_keeps_labels_apart():
+    from geomelt.io.quicklook import place_labels
+
+    # Far apart: left where they are.
+    assert place_labels([(0.0, 0.0), (10.0, 0.0)], 1.0) == [(0.0, 0.0), (10.0, 0.0)]
+    # Three on one spot: the first stays, the next go to the first free places of the
+    # ring around it (straight up, then up-right), every centre at least `spacing` apart.
+    spots = place_labels([(5.0, 5.0)] * 3, 2.0)
+    assert spots[0] == (5.0, 5.0)
+    assert spots[1] == pytest.approx((5.0, 7.0))
+    for i in range(3):
+        for j in range(i):
+            assert np.hypot(*np.subtract(spots[i], spots[j])) >= 2.0 - 1e-9
+    # On a geographic map one degree of latitude is drawn 1 / cos(lat) times longer than
+    # one of longitude: the distance is measured as drawn.
+    y_scale = 2.0
+    spots = place_labels([(0.0, 0.0), (0.0, 0.4)], 1.0, y_scale)
+    assert spots[1] != (0.0, 0.4)  # 0.8 apart as drawn: too close
+    dx, dy = np.subtract(spots[1], spots[0])
+    assert np.hypot(dx, dy * y_scale) >= 1.0 - 1e-9
+
+
+def test_prospects_map_moves_overlapping_rank_labels(tmp_path):
+    import geopandas as gpd
+    from shapely.geometry import box
+
+    from geomelt.io.quicklook import prospects_map_png
+
+    setting = np.full((40, 50), 1, dtype=np.uint8)
+    transform = Affine(10_000.0, 0, 0.0, 0, -10_000.0, 400_000.0)
+    crs = "+proj=laea +lat_0=-45 +lon_0=-140 +datum=WGS84 +units=m"
+    # Two screens' prospects on the same ground (as an oceanic hotspot's geothermal and
+    # another screen's can be): the same representative point.
+    same = box(200_000, 150_000, 260_000, 210_000)
+    frame = gpd.GeoDataFrame(
+        {"screen": ["geothermal_heat_source", "vms"], "rank": [1, 15]},
+        geometry=[same, same],
+        crs=crs,
+    )
+    info = prospects_map_png(
+        tmp_path / "p.png",
+        setting,
+        transform,
+        crs,
+        frame,
+        {"geothermal_heat_source": "#d7301f", "vms": "#2166ac"},
+        {"geothermal_heat_source": "Geothermal heat source", "vms": "VMS"},
+    )
+    (x1, y1), (x2, y2) = info.label_positions
+    anchor = same.representative_point()
+    assert (x1, y1) == pytest.approx((anchor.x, anchor.y))
+    assert np.hypot(x2 - x1, y2 - y1) >= 0.035 * 500_000 - 1e-6  # map 500 x 400 km
