@@ -113,6 +113,8 @@ _AF_GPA = _ALPHA_F / _RHO_F * _PA_PER_GPA
 _TABLE_ITERATIONS = 36  # bisection steps per table node: F within 1e-11
 _REFERENCE_ITERATIONS = 50  # bisection steps in the reference integration: F within 1e-15
 _CROSSING_ITERATIONS = 40  # bisection steps for the solidus depth: 1 km / 2^40
+_SOLIDUS_SCAN_COLUMNS = 4096  # solidus crossings found this many columns at a time (the
+# 80,661 columns of the default refined grid at once took ~130 MiB of temporaries)
 _SURFACE_NODES = 36  # extra table nodes above the first depth step, spaced by a ratio of
 _SURFACE_RATIO = 1.2  # 1.2 down to 1.4 m below the surface (for 1-km steps)
 
@@ -842,7 +844,15 @@ class MeltingTable:
         ws_nodes = _water_nodes(w_lo, w_hi, (int(water_nodes) - 1) * refine_w + 1)
         tps_grid, ws_grid = np.meshgrid(tps_nodes, ws_nodes, indexing="ij")
         scan = np.linspace(0.0, depth[-1], int(np.ceil(depth[-1] / 5.0)) + 1)  # 5-km scan
-        _, solidus, _ = _crossing_depth(units.c_to_k(tps_grid.ravel()), ws_grid.ravel(), d, scan)
+        tps_k, ws = units.c_to_k(tps_grid.ravel()), ws_grid.ravel()
+        solidus = np.concatenate(
+            [
+                _crossing_depth(
+                    tps_k[i : i + _SOLIDUS_SCAN_COLUMNS], ws[i : i + _SOLIDUS_SCAN_COLUMNS], d, scan
+                )[1]
+                for i in range(0, tps_k.size, _SOLIDUS_SCAN_COLUMNS)
+            ]
+        )
         return cls(
             tp_nodes,
             w_nodes,

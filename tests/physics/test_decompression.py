@@ -268,6 +268,24 @@ def test_coarse_table_is_still_close(table):
     assert_allclose(rough["melt_fraction_max"], fine["melt_fraction_max"], atol=0.005)
 
 
+def test_solidus_scan_in_column_batches_changes_no_value(monkeypatch):
+    # The refined solidus grid is scanned a batch of columns at a time to bound memory;
+    # every column is independent, so any batch size (here 7, not a divisor of the 101 x 41
+    # columns, and all at once) gives the same table, bit for bit.
+    import geomelt.physics.decompression as decompression
+
+    def build(batch):
+        monkeypatch.setattr(decompression, "_SOLIDUS_SCAN_COLUMNS", batch)
+        return MeltingTable.build(
+            potential_temperature_step_k=25.0, water_nodes=6, depth_step_km=5.0
+        )
+
+    whole, batched = build(10**9), build(7)
+    assert whole.solidus_depth_km.shape == (101, 41)
+    assert np.array_equal(whole.solidus_depth_km, batched.solidus_depth_km, equal_nan=True)
+    assert np.array_equal(whole.melt_thickness_km, batched.melt_thickness_km, equal_nan=True)
+
+
 # --------------------------------------------------------------------------------------
 # lookup behaviour
 # --------------------------------------------------------------------------------------
