@@ -23,7 +23,9 @@ from pathlib import Path
 import numpy as np
 from affine import Affine
 from matplotlib.backends.backend_agg import FigureCanvasAgg
+from matplotlib.cm import ScalarMappable
 from matplotlib.collections import LineCollection, PolyCollection
+from matplotlib.colors import Normalize
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch, Rectangle
@@ -614,13 +616,13 @@ def continuous_map_png(
     if hi <= lo:
         hi = lo + (abs(lo) * 1e-6 or 1.0)
     colour_map = matplotlib.colormaps[cmap].with_extremes(bad=(0, 0, 0, 0))
-    norm = matplotlib.colors.Normalize(vmin=lo, vmax=hi)
+    norm = Normalize(vmin=lo, vmax=hi)
     # Coloured here, as bytes: handed floats, matplotlib resamples and colours them in
     # float64 copies of the figure's size (about 30 MiB more at the peak of a run).
     m.show(colour_map(norm(np.ma.masked_invalid(small)), bytes=True))
     box = m.box
     cax = m.fig.add_axes((box.x1 + 0.03, box.y0 + 0.4 * box.height, 0.022, 0.6 * box.height))
-    bar = m.fig.colorbar(matplotlib.cm.ScalarMappable(norm=norm, cmap=colour_map), cax=cax)
+    bar = m.fig.colorbar(ScalarMappable(norm=norm, cmap=colour_map), cax=cax)
     bar.set_label(unit, fontsize=9)
     bar.ax.tick_params(labelsize=7)
     return _finish(m, path, title, None, boundaries, hotspots, footnote)

@@ -304,12 +304,16 @@ def write_quicklooks(
     # Each figure is freed by a garbage collection (matplotlib figures hold reference
     # cycles). What lives already is frozen out of those collections, so each scans only
     # what the figure made (a full collection over a run's objects took ~80 ms per map).
-    gc.collect()
-    gc.freeze()
+    # Left alone when the caller froze objects itself (unfreeze would release those too).
+    freeze = gc.get_freeze_count() == 0
+    if freeze:
+        gc.collect()
+        gc.freeze()
     try:
         return _draw_quicklooks(qdir, out_dir, boundaries, hotspots, prospects)
     finally:
-        gc.unfreeze()
+        if freeze:
+            gc.unfreeze()
 
 
 def _draw_quicklooks(qdir: Path, out_dir: Path, boundaries, hotspots, prospects):

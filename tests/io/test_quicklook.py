@@ -249,3 +249,23 @@ def test_prospects_map_moves_overlapping_rank_labels(tmp_path):
     anchor = same.representative_point()
     assert (x1, y1) == pytest.approx((anchor.x, anchor.y))
     assert np.hypot(x2 - x1, y2 - y1) >= 0.035 * 500_000 - 1e-6  # map 500 x 400 km
+
+
+def test_write_quicklooks_leaves_the_callers_frozen_objects_frozen(tmp_path):
+    # The quick-looks freeze what lives before drawing (gc.freeze) and unfreeze after; a
+    # caller that froze objects itself keeps them frozen, and no freeze is left behind.
+    import gc
+
+    from geomelt.pipeline.products import write_quicklooks
+
+    assert gc.get_freeze_count() == 0
+    assert write_quicklooks(tmp_path, tmp_path) == []  # no rasters: nothing drawn
+    assert gc.get_freeze_count() == 0
+    gc.freeze()
+    try:
+        frozen = gc.get_freeze_count()
+        assert frozen > 0
+        write_quicklooks(tmp_path, tmp_path)
+        assert gc.get_freeze_count() == frozen
+    finally:
+        gc.unfreeze()
