@@ -9,7 +9,7 @@ import matplotlib.image as mpimg
 import numpy as np
 import pytest
 from affine import Affine
-from shapely.geometry import LineString, Point
+from shapely.geometry import LineString, Point, box
 
 from geomelt.classes import SETTING
 from geomelt.io.quicklook import class_map_png, continuous_map_png, nice_length, north_angle
@@ -167,30 +167,43 @@ def test_helpers():
     assert north_angle(None, 0, 0) is None
 
 
-def test_prospects_map_labels_screens_and_ranks(tmp_path):
-    import geopandas as gpd
-    from affine import Affine
+PROSPECT_CRS = "+proj=laea +lat_0=-45 +lon_0=-140 +datum=WGS84 +units=m"
+
+
+def draw_prospects(tmp_path, screens, ranks, boxes, setting_right=1):
+    """A prospects map of a 500 x 400 km setting grid (left half stable interior) with one
+    prospect per (screen, rank, box)."""
     from shapely.geometry import box
 
     from geomelt.io.quicklook import prospects_map_png
 
     setting = np.full((40, 50), 1, dtype=np.uint8)
-    setting[:, 25:] = 6
-    transform = Affine(10_000.0, 0, 0.0, 0, -10_000.0, 400_000.0)
-    crs = "+proj=laea +lat_0=-45 +lon_0=-140 +datum=WGS84 +units=m"
+    setting[:, 25:] = setting_right
     frame = gpd.GeoDataFrame(
-        {"screen": ["porphyry_cu_au_mo", "geothermal_heat_source"], "rank": [1, 2]},
-        geometry=[box(50_000, 50_000, 150_000, 150_000), box(300_000, 200_000, 400_000, 300_000)],
-        crs=crs,
+        {"screen": screens, "rank": ranks}, geometry=[box(*b) for b in boxes], crs=PROSPECT_CRS
     )
-    info = prospects_map_png(
+    return prospects_map_png(
         tmp_path / "p.png",
         setting,
-        transform,
-        crs,
+        Affine(10_000.0, 0, 0.0, 0, -10_000.0, 400_000.0),
+        PROSPECT_CRS,
         frame,
         {"geothermal_heat_source": "#d7301f", "porphyry_cu_au_mo": "#8c510a", "vms": "#2166ac"},
-        {"geothermal_heat_source": "Geothermal heat source", "porphyry_cu_au_mo": "Porphyry"},
+        {
+            "geothermal_heat_source": "Geothermal heat source",
+            "porphyry_cu_au_mo": "Porphyry",
+            "vms": "VMS",
+        },
+    )
+
+
+def test_prospects_map_labels_screens_and_ranks(tmp_path):
+    info = draw_prospects(
+        tmp_path,
+        ["porphyry_cu_au_mo", "geothermal_heat_source"],
+        [1, 2],
+        [(50_000, 50_000, 150_000, 150_000), (300_000, 200_000, 400_000, 300_000)],
+        setting_right=6,
     )
     assert info.path.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     # screens without prospects are left out of the legend; counts are shown
@@ -220,33 +233,12 @@ def test_place_labels_keeps_labels_apart():
 
 
 def test_prospects_map_moves_overlapping_rank_labels(tmp_path):
-    import geopandas as gpd
-    from shapely.geometry import box
-
-    from geomelt.io.quicklook import prospects_map_png
-
-    setting = np.full((40, 50), 1, dtype=np.uint8)
-    transform = Affine(10_000.0, 0, 0.0, 0, -10_000.0, 400_000.0)
-    crs = "+proj=laea +lat_0=-45 +lon_0=-140 +datum=WGS84 +units=m"
     # Two screens' prospects on the same ground (as an oceanic hotspot's geothermal and
     # another screen's can be): the same representative point.
-    same = box(200_000, 150_000, 260_000, 210_000)
-    frame = gpd.GeoDataFrame(
-        {"screen": ["geothermal_heat_source", "vms"], "rank": [1, 15]},
-        geometry=[same, same],
-        crs=crs,
-    )
-    info = prospects_map_png(
-        tmp_path / "p.png",
-        setting,
-        transform,
-        crs,
-        frame,
-        {"geothermal_heat_source": "#d7301f", "vms": "#2166ac"},
-        {"geothermal_heat_source": "Geothermal heat source", "vms": "VMS"},
-    )
+    same = (200_000, 150_000, 260_000, 210_000)
+    info = draw_prospects(tmp_path, ["geothermal_heat_source", "vms"], [1, 15], [same, same])
     (x1, y1), (x2, y2) = info.label_positions
-    anchor = same.representative_point()
+    anchor = box(*same).representative_point()
     assert (x1, y1) == pytest.approx((anchor.x, anchor.y))
     assert np.hypot(x2 - x1, y2 - y1) >= 0.035 * 500_000 - 1e-6  # map 500 x 400 km
 
