@@ -173,8 +173,6 @@ PROSPECT_CRS = "+proj=laea +lat_0=-45 +lon_0=-140 +datum=WGS84 +units=m"
 def draw_prospects(tmp_path, screens, ranks, boxes, setting_right=1):
     """A prospects map of a 500 x 400 km setting grid (left half stable interior) with one
     prospect per (screen, rank, box)."""
-    from shapely.geometry import box
-
     from geomelt.io.quicklook import prospects_map_png
 
     setting = np.full((40, 50), 1, dtype=np.uint8)
