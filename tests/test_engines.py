@@ -123,7 +123,7 @@ def test_runs_bound_gdal_block_cache_in_mib(tiny_region_module, tmp_path, monkey
 
     from geomelt.pipeline import engines, runner
 
-    expected = engines.GDAL_CACHE_MB * 1024 * 1024
+    expected = engines.GDAL_CACHE_MIB * 1024 * 1024
     with engines.bounded_gdal_cache():
         assert get_gdal_config("GDAL_CACHEMAX") == expected
     seen = []

@@ -43,6 +43,8 @@ __all__ = [
     "continuous_map_png",
     "nice_length",
     "north_angle",
+    "place_labels",
+    "prospects_map_png",
 ]
 
 MAX_IMAGE_SIDE = 1500
@@ -68,8 +70,8 @@ _LABEL_SPACING = 0.035
 """Least distance between the centres of two rank labels on a prospects map, as a fraction
 of the map's longer side (~20 pixels on the 600-pixel map: the circled labels just clear)."""
 _FOOTNOTE_CHARS_PER_INCH = 19
-"""Characters of the 6.5-point footnote per inch of figure width (DejaVu Sans averages about
-20; matplotlib's own wrapping fits 198 characters on the 10-inch figure)."""
+"""Characters of the 6.5-point footnote per inch of figure width (matplotlib's own wrapping,
+which measures the text, fitted 198 characters of the caution on the 10-inch figure)."""
 
 
 @dataclass(frozen=True)

@@ -49,7 +49,7 @@ __all__ = [
 ENGINES = ("threads", "serial", "dask")
 """Engine names accepted by :func:`iterate_windows`."""
 
-GDAL_CACHE_MB = 8
+GDAL_CACHE_MIB = 8
 """GDAL block cache per process, MiB. Windows are read and written in whole tiles, each
 once, so the cache only needs the few source blocks one window's reprojection reads; a
 larger one holds finished, not yet compressed tiles of the ~70 outputs (32 MiB took
@@ -59,7 +59,7 @@ that reduce a grid do not lean on it (:func:`geomelt.io.rasters.nearest_sample`)
 
 @contextlib.contextmanager
 def bounded_gdal_cache():
-    """GDAL's block cache bounded to :data:`GDAL_CACHE_MB` (a ``with`` block, or a
+    """GDAL's block cache bounded to :data:`GDAL_CACHE_MIB` (a ``with`` block, or a
     decorator as on :func:`geomelt.pipeline.runner.plan_run` and ``execute_run``).
 
     GDAL's default cache is 5 % of the machine's memory (1.2 GB on a 24 GB machine) and
@@ -70,7 +70,7 @@ def bounded_gdal_cache():
     under which a reduced read decompresses every block once per output row. Only a
     string in the environment of a new process is read as MB.
     """
-    with rasterio.Env(GDAL_CACHEMAX=GDAL_CACHE_MB * 1024 * 1024):
+    with rasterio.Env(GDAL_CACHEMAX=GDAL_CACHE_MIB * 1024 * 1024):
         yield
 
 
@@ -421,7 +421,7 @@ def _dask(plan, windows, scheduler: str, workers: int) -> Iterator[WindowResult]
                 threads_per_worker=1,
                 processes=True,
                 dashboard_address=None,
-                env={"GDAL_CACHEMAX": str(GDAL_CACHE_MB), "GDAL_NUM_THREADS": "1"},
+                env={"GDAL_CACHEMAX": str(GDAL_CACHE_MIB), "GDAL_NUM_THREADS": "1"},
             )
         client = Client(cluster)
     else:
