@@ -12,7 +12,7 @@ $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
 	$(BIN)/python -m pip install --quiet --upgrade pip
 
-$(STAMP): pyproject.toml $(BIN)/python
+$(STAMP): pyproject.toml $(wildcard geomelt/*/*.pyx) $(BIN)/python
 	$(BIN)/python -m pip install --quiet -e ".[dev]"
 	touch $(STAMP)
 

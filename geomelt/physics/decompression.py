@@ -76,6 +76,7 @@ from geomelt import constants as C
 from geomelt import units
 from geomelt.errors import OutsideCalibrationWarning
 from geomelt.parameters import MantleMeltingParameters
+from geomelt.physics._kernels import melting_table_lookup
 from geomelt.physics.peridotite import (
     CALIBRATION_MAX_PRESSURE_GPA,
     _bisect_melt_fraction,
@@ -717,11 +718,15 @@ class MeltingTable:
         ):
             msg = "table axes do not match the table shapes (or have fewer than 2 nodes)"
             raise ValueError(msg)
-        self._tp_axis = _UniformAxis(self.potential_temperature_c)
-        self._w_axis = _UniformAxis(np.power(self.water_wt_pct, _GAMMA))
-        self._z_axis = _UniformAxis(self.depth_km)
-        self._tps_axis = _UniformAxis(self.solidus_potential_temperature_c)
-        self._ws_axis = _UniformAxis(np.power(self.solidus_water_wt_pct, _GAMMA))
+        self._axes = np.array(
+            [
+                _uniform_axis(self.potential_temperature_c),
+                _uniform_axis(np.power(self.water_wt_pct, _GAMMA)),
+                _uniform_axis(self.depth_km),
+                _uniform_axis(self.solidus_potential_temperature_c),
+                _uniform_axis(np.power(self.solidus_water_wt_pct, _GAMMA)),
+            ]
+        )
         # float32 copies for the gathers: half the memory traffic, and their rounding
         # (6e-8 relative, < 1e-5 km of melt thickness) is far below the table's accuracy
         self._fmax_flat = self.melt_fraction_max.astype(np.float32).ravel()
@@ -890,8 +895,8 @@ class MeltingTable:
         the table, negative lid depths, and lids below the table bottom in columns that
         are still molten there give NaN and one
         :class:`~geomelt.errors.OutsideCalibrationWarning` per call. Where the lid is
-        deeper than the solidus there is no melt (0, 0). The work is done in chunks of
-        65536 cells with numpy indexing; nothing loops over cells in Python.
+        deeper than the solidus there is no melt (0, 0). The per-cell interpolation runs in
+        a compiled kernel (:mod:`geomelt.physics._kernels`), 65536 cells at a time.
 
         Examples
         --------
@@ -924,33 +929,27 @@ class MeltingTable:
 
     def _lookup_chunk(self, tp, w, lid, out, s, e):
         """Fill ``out[...][s:e]``; return the number of cells outside the table."""
-        nan_in = np.isnan(tp) | np.isnan(w) | np.isnan(lid)
         with np.errstate(invalid="ignore"):
             u = np.power(w, _GAMMA)
-            bad = ~(lid >= 0.0) & ~nan_in
-        ix, fx, bad_x = self._tp_axis.locate(tp)
-        iy, fy, bad_y = self._w_axis.locate(u)
-        bad |= (bad_x | bad_y) & ~nan_in
-        invalid = bad | nan_in
-        nz = self.depth_km.size
-        deep = lid > self.depth_km[-1]
-        iz, fz, _ = self._z_axis.locate(np.where(invalid, 0.0, np.minimum(lid, self.depth_km[-1])))
-        nw = self.water_wt_pct.size
-        base = (ix * nw + iy) * nz + iz
-        f = _trilinear(self._fmax_flat, base, nw * nz, nz, fx, fy, fz)
-        h = _trilinear(self._thickness_flat, base, nw * nz, nz, fx, fy, fz)
-        # a lid below the table is only meaningful where the columns have stopped melting
-        lost = deep & ~invalid & (f > 0.0)
-        bad |= lost
-        invalid |= lost
-        jx, gx, _ = self._tps_axis.locate(tp)
-        jy, gy, _ = self._ws_axis.locate(u)
-        nws = self.solidus_water_wt_pct.size
-        zs = _bilinear(self._solidus_flat, jx * nws + jy, nws, gx, gy)
-        out["melt_fraction_max"][s:e] = np.where(invalid, np.nan, f)
-        out["melt_thickness_km"][s:e] = np.where(invalid, np.nan, h)
-        out["solidus_depth_km"][s:e] = np.where(invalid & ~lost, np.nan, zs)
-        return int(np.count_nonzero(bad))
+        return int(
+            melting_table_lookup(
+                tp,
+                w,
+                u,
+                lid,
+                self._axes,
+                float(self.depth_km[-1]),
+                self._fmax_flat,
+                self._thickness_flat,
+                self._solidus_flat,
+                self.water_wt_pct.size,
+                self.depth_km.size,
+                self.solidus_water_wt_pct.size,
+                out["solidus_depth_km"][s:e],
+                out["melt_fraction_max"][s:e],
+                out["melt_thickness_km"][s:e],
+            )
+        )
 
 
 _LOOKUP_NAMES = ("solidus_depth_km", "melt_fraction_max", "melt_thickness_km")
@@ -963,41 +962,7 @@ def _water_nodes(w_lo, w_hi, n):
     return nodes
 
 
-class _UniformAxis:
-    """Cell index and fraction on a uniformly spaced axis (no search needed)."""
-
-    def __init__(self, nodes):
-        self.start = float(nodes[0])
-        self.step = float(nodes[1] - nodes[0])
-        self.last = nodes.size - 2  # index of the last cell
-        self.span = float(nodes.size - 1)
-
-    def locate(self, values):
-        """Return ``(index, fraction, outside)``; outside values get index 0 (masked later)."""
-        with np.errstate(invalid="ignore"):
-            x = (values - self.start) / self.step
-            outside = ~((x >= -1.0e-9) & (x <= self.span + 1.0e-9))
-        x = np.where(outside | np.isnan(x), 0.0, np.clip(x, 0.0, self.span))
-        i = np.minimum(x.astype(np.intp), self.last)
-        return i, x - i, outside
-
-
-def _trilinear(values, base, stride_x, stride_y, fx, fy, fz):
-    """Trilinear interpolation on a flattened 3-D grid at flat corner index ``base``."""
-    gz = 1.0 - fz
-    out = None
-    for ox, wx in ((0, 1.0 - fx), (stride_x, fx)):
-        for oy, wy in ((0, 1.0 - fy), (stride_y, fy)):
-            idx = base + (ox + oy)
-            edge = np.take(values, idx) * gz + np.take(values, idx + 1) * fz
-            term = edge * (wx * wy)
-            out = term if out is None else out + term
-    return out
-
-
-def _bilinear(values, base, stride_x, fx, fy):
-    """Bilinear interpolation on a flattened 2-D grid at flat corner index ``base``."""
-    gx, gy = 1.0 - fx, 1.0 - fy
-    return (np.take(values, base) * gx + np.take(values, base + stride_x) * fx) * gy + (
-        np.take(values, base + 1) * gx + np.take(values, base + stride_x + 1) * fx
-    ) * fy
+def _uniform_axis(nodes) -> tuple[float, float, float, float]:
+    """First node, spacing, index of the last cell and of the last node of a uniform axis
+    (a row of the axes given to :func:`geomelt.physics._kernels.melting_table_lookup`)."""
+    return (float(nodes[0]), float(nodes[1] - nodes[0]), nodes.size - 2, float(nodes.size - 1))

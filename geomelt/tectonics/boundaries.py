@@ -76,6 +76,7 @@ from pyproj import CRS, Geod, Transformer
 
 from geomelt.errors import InputLayerError, LayerMismatchError, ParameterError
 from geomelt.io.vectors import BOUNDARY_TYPES, UPPER_PLATE_SIDES
+from geomelt.tectonics._kernels import lambert_many_km, search_type
 from geomelt.units import km_to_m
 
 __all__ = [
@@ -140,10 +141,15 @@ def suggest_tile_km(cell_size_km: float) -> float:
     return float(min(max(32.0 * float(cell_size_km), 8.0), 256.0))
 
 
-_CHUNK_CELLS = 1 << 14
-"""Cells evaluated together: bounds the working memory of a call (about 13 MiB; 37 MiB
-at 2^16) and keeps temporaries in cache (measured fastest among 2^12 to 2^16 on a
-256 x 256 window of the 4096^2 benchmark region: 33-39 ms against 54 ms at 2^16)."""
+_CHUNK_CELLS = 1 << 16
+"""Cells searched together: one window of 256 x 256 cells. Bounds the working memory of a
+call (12 MiB traced at 2^16 cells, outputs included) and shares the tiles' candidate
+search among more cells (measured on 16 windows of the 4096^2 benchmark region: 14 ms
+per window at 2^16, 16 at 2^15, 20 at 2^14, 16 at 2^17)."""
+
+
+_NO_SIDE = np.empty(0, dtype=np.float32)
+"""Stand-in side output for the types without a side (the kernel does not write it)."""
 
 
 @dataclass(frozen=True)
@@ -345,38 +351,6 @@ def _foot_points(p: np.ndarray, table: np.ndarray) -> np.ndarray:
     return np.where(inside, _normalise(p - s * n), end)
 
 
-def _left_of_line(pc: np.ndarray, index: _TypeIndex, node: np.ndarray) -> np.ndarray:
-    """Positive where each cell lies left of its nearest line (walking as digitised).
-
-    Parameters
-    ----------
-    pc : ndarray (3, n)
-        Cells on the auxiliary sphere (rows x, y, z).
-    index, node : the type's strip trees and the chosen node of each cell.
-
-    Returns
-    -------
-    ndarray
-        ``p . n``: with the chord's left normal ``n`` when the foot of the
-        perpendicular is inside the arc, else with the pseudo-normal of the
-        nearer end (Bærentzen & Aanæs 2005). Its sign is that of the cross
-        product of the line direction and the vector from the foot to the
-        cell in the plane tangent at the foot.
-    """
-    tt = index.table_t
-    px, py, pz = pc
-    s = px * tt[0][node] + py * tt[1][node] + pz * tt[2][node]
-    x = px * tt[3][node] + py * tt[4][node] + pz * tt[5][node]
-    y = px * tt[6][node] + py * tt[7][node] + pz * tt[8][node]
-    c, sn = tt[9][node], tt[10][node]
-    inside = (y > 0.0) & (sn * x - c * y > 0.0)
-    end_normal = np.where(
-        (x >= c * x + sn * y)[:, None], index.normal_a[node], index.normal_b[node]
-    )
-    end_dot = px * end_normal[:, 0] + py * end_normal[:, 1] + pz * end_normal[:, 2]
-    return np.where(inside, s, end_dot)
-
-
 def lambert_distance_km(half_chord2: np.ndarray, z1: np.ndarray, z2: np.ndarray) -> np.ndarray:
     """Ellipsoidal (WGS84) distance, km, between two points of the auxiliary sphere.
 
@@ -391,16 +365,15 @@ def lambert_distance_km(half_chord2: np.ndarray, z1: np.ndarray, z2: np.ndarray)
 
     ``sin^2(sigma/2)`` is given from the chord so the formula stays exact as
     the points meet. Relative error against ``pyproj.Geod`` (Karney 2013):
-    below 2e-6 from 1 m to 5000 km.
+    below 2e-6 from 1 m to 5000 km. Inputs broadcast; the result is float64.
     """
-    h2 = np.clip(half_chord2, 0.0, 1.0)
-    sin_half = np.sqrt(h2)
-    cos2_half = 1.0 - h2
-    sigma = 2.0 * np.arcsin(sin_half)
-    sin_sigma = 2.0 * sin_half * np.sqrt(cos2_half)
-    x_term = (sigma - sin_sigma) * (0.5 * (z1 + z2)) ** 2 / np.maximum(cos2_half, 1e-300)
-    y_term = (sigma + sin_sigma) * (0.5 * (z2 - z1)) ** 2 / np.where(h2 > 0.0, h2, 1.0)
-    return _A_KM * (sigma - 0.5 * _F * (x_term + y_term))
+    h2, z1, z2 = np.broadcast_arrays(
+        *(np.asarray(v, dtype=np.float64) for v in (half_chord2, z1, z2))
+    )
+    out = np.empty(h2.shape)
+    # one compiled formula for this function and the per-cell search
+    lambert_many_km(h2.ravel(), z1.ravel(), z2.ravel(), _A_KM, _F, out.reshape(-1))
+    return out
 
 
 # ---------------------------------------------------------------------------
@@ -790,125 +763,6 @@ def _tile_frontier(
     t, n = t[keep], n[keep]
     ptr = np.concatenate([[0], np.cumsum(np.bincount(t, minlength=n_tiles))])
     return ptr, n, np.ascontiguousarray(grad_km.T), level_km
-
-
-def _chord_distance_km(
-    x0: np.ndarray, y0: np.ndarray, z0: np.ndarray, tt: np.ndarray, nid: np.ndarray
-) -> np.ndarray:
-    """WGS84 distance (km) from cells (x0, y0, z0 on the auxiliary sphere) to the
-    foot of the perpendicular on the chords ``nid`` of the kernel table ``tt``
-    (11, m); see :func:`_arc_distance_rad` and :func:`lambert_distance_km`."""
-    nz, az, ez = tt[2][nid], tt[5][nid], tt[8][nid]
-    s = x0 * tt[0][nid]
-    s += y0 * tt[1][nid]
-    s += z0 * nz
-    x = x0 * tt[3][nid]
-    x += y0 * tt[4][nid]
-    x += z0 * az
-    y = x0 * tt[6][nid]
-    y += y0 * tt[7][nid]
-    y += z0 * ez
-    c = tt[9][nid]
-    sn = tt[10][nid]
-    pb = c * x
-    pb += sn * y
-    inside = (y > 0.0) & (sn * x - c * y > 0.0)
-    r = 1.0 - s * s
-    np.sqrt(np.maximum(r, 0.0, out=r), out=r)
-    # sin^2(sigma / 2) to the foot: exact inside the arc, from the cosine at
-    # an end (to ~1e-8 rad there); sin(beta) of the foot.
-    half_chord2 = np.where(inside, 0.5 * s * s / (1.0 + r), 0.5 - 0.5 * np.maximum(x, pb))
-    z_end = np.where(x >= pb, az, c * az + sn * ez)
-    z_foot = np.where(inside, (z0 - s * nz) / np.maximum(r, 1e-300), z_end)
-    return lambert_distance_km(half_chord2, z0, z_foot)
-
-
-def _nearest_nodes(
-    index: _TypeIndex,
-    pc: np.ndarray,
-    cell_tile: np.ndarray,
-    offset: np.ndarray,
-    frontier: tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray],
-) -> tuple[np.ndarray, np.ndarray]:
-    """Nearest candidate chord of each cell and its ellipsoidal distance.
-
-    Parameters
-    ----------
-    index : _TypeIndex
-    pc : ndarray (3, n)
-        Cells on the auxiliary sphere.
-    cell_tile : ndarray
-        Tile of each cell.
-    offset : ndarray (3, n)
-        Each cell minus its tile centre.
-    frontier : (ptr, nodes, grad, level)
-        Candidates of each tile from :func:`_tile_frontier`.
-
-    Returns
-    -------
-    node : ndarray
-        Node of the nearest chord, -1 where the tile has no candidate.
-    distance_km : ndarray
-        WGS84 distance (Lambert 1942) to the foot on that chord, km; inf
-        where none.
-
-    Notes
-    -----
-    Candidates are compared by their distance on the ellipsoid (the nearest
-    point on the auxiliary sphere is not always the nearest on the
-    ellipsoid: distances there differ by up to the flattening, 0.34 %,
-    with direction). A candidate is skipped for a cell when its linear lower
-    bound (km, from :func:`_tile_frontier`) already exceeds the best
-    distance. Candidates come nearest-to-the-tile first and ties keep the
-    first, so the answer depends only on the cell and its tile.
-    """
-    ptr, nodes, grad, level = frontier
-    count = (ptr[1:] - ptr[:-1])[cell_tile]
-    n_cells = pc.shape[1]
-    best = np.full(n_cells, -1, dtype=np.int64)
-    k_max = int(count.max()) if n_cells else 0
-    if k_max == 0:
-        return best, np.full(n_cells, np.inf)
-    # Cells with the most candidates first: slot j then covers a prefix.
-    key = (k_max - count).astype(np.uint16 if k_max < 65535 else np.int64)
-    order = np.argsort(key, kind="stable")
-    n_active = np.bincount(count, minlength=k_max + 1)[::-1].cumsum()[::-1]
-    px, py, pz = pc[0][order], pc[1][order], pc[2][order]
-    # The bounds are screened in float32 (half the memory traffic); 1 m of
-    # margin covers its rounding.
-    ox, oy, oz = (offset[k][order].astype(np.float32) for k in range(3))
-    gx, gy, gz = grad.astype(np.float32)
-    level = (level - 1e-3).astype(np.float32)
-    base = ptr[cell_tile[order]]
-    tt = index.table_t
-    best_km = np.full(n_cells, np.inf)
-    best_bound = np.full(n_cells, np.inf, dtype=np.float32)
-    best_sorted = np.full(n_cells, -1, dtype=np.int64)
-    for j in range(k_max):
-        m = int(n_active[j + 1])
-        entry = base[:m] + j
-        if j == 0:
-            nid = nodes[entry]
-            dist_km = _chord_distance_km(px[:m], py[:m], pz[:m], tt, nid)
-            best_km[:m] = dist_km
-            best_bound[:m] = dist_km + 1e-3
-            best_sorted[:m] = nid
-            continue
-        lower = level[entry] + gx[entry] * ox[:m] + gy[entry] * oy[:m] + gz[entry] * oz[:m]
-        cells = np.flatnonzero(lower <= best_bound[:m])
-        if cells.size == 0:
-            continue
-        nid = nodes[entry[cells]]
-        dist_km = _chord_distance_km(px[cells], py[cells], pz[cells], tt, nid)
-        better = dist_km < best_km[cells]
-        won = cells[better]
-        best_km[won] = dist_km[better]
-        best_bound[won] = dist_km[better] + 1e-3
-        best_sorted[won] = nid[better]
-    best[order] = best_sorted
-    out_km = np.full(n_cells, np.inf)
-    out_km[order] = best_km
-    return best, out_km
 
 
 # ---------------------------------------------------------------------------
@@ -1348,36 +1202,42 @@ def boundary_fields(
         cell_tile = cell_tile.reshape(-1)
         centres, radii = _tile_caps(tiles, n_face)
         offset = pc - centres.T[:, cell_tile]
-        local = {
-            name: np.full(
-                cells.size, spec.nodata, dtype=np.float64 if spec.dtype == "float32" else spec.dtype
-            )
-            for name, spec in BOUNDARY_FIELDS.items()
-        }
+        target = lo + cells
         nearest = np.full(cells.size, np.inf)
-        nearest_code = np.full(cells.size, NO_BOUNDARY_CODE, dtype=np.uint8)
         for code, (btype, index) in enumerate(zip(BOUNDARY_TYPES, boundaries.indexes, strict=True)):
             if index is None:
                 continue
-            frontier = _tile_frontier(index, centres, radii, reach_rad, boundaries.rtol, atol_rad)
-            node, dist_km = _nearest_nodes(index, pc, cell_tile, offset, frontier)
-            has = np.flatnonzero(dist_km <= max_distance_km)
-            if has.size == 0:
-                continue
-            node, dist_km = node[has], dist_km[has]
-            feature = index.feature[node]
-            local[f"distance_to_{btype}_km"][has] = dist_km
-            local[f"{btype}_rate_mm_yr"][has] = boundaries.rate_mm_yr[feature]
-            local[f"nearest_{btype}_feature"][has] = feature
-            if btype in SIDE_TYPES:
-                left = _left_of_line(pc[:, has], index, node)
-                local[f"{btype}_side"][has] = boundaries.upper_side[feature] * np.sign(left)
-            closer = dist_km < nearest[has]
-            nearest[has[closer]] = dist_km[closer]
-            nearest_code[has[closer]] = code
-        local["distance_to_boundary_km"] = np.where(np.isfinite(nearest), nearest, np.nan)
-        local["nearest_boundary_type"] = nearest_code
-        target = slice(lo, hi) if cells.size == hi - lo else lo + cells
-        for name, values in local.items():
-            flat[name][target] = values
+            ptr, nodes, grad, level = _tile_frontier(
+                index, centres, radii, reach_rad, boundaries.rtol, atol_rad
+            )
+            side = f"{btype}_side"
+            search_type(
+                pc,
+                offset,
+                cell_tile,
+                target,
+                ptr,
+                nodes,
+                grad,
+                level,
+                index.table_t,
+                index.feature,
+                index.normal_a,
+                index.normal_b,
+                boundaries.rate_mm_yr,
+                boundaries.upper_side,
+                btype in SIDE_TYPES,
+                float(max_distance_km),
+                code,
+                _A_KM,
+                _F,
+                flat[f"distance_to_{btype}_km"],
+                flat[f"{btype}_rate_mm_yr"],
+                flat[f"nearest_{btype}_feature"],
+                flat.get(side, _NO_SIDE),
+                nearest,
+                flat["nearest_boundary_type"],
+            )
+        found = np.isfinite(nearest)
+        flat["distance_to_boundary_km"][target[found]] = nearest[found]
     return out

@@ -299,6 +299,32 @@ def test_lookup_shapes_nan_and_broadcasting(table):
     assert table.lookup(1350.0, 0.0, 0.0)["melt_thickness_km"].shape == ()
 
 
+def test_lookup_is_the_trilinear_interpolation_of_scipy(table):
+    # reference: scipy.interpolate.RegularGridInterpolator (linear) over the table's own
+    # axes (T_p, water^gamma, depth; water^gamma is the axis the table is uniform in) and
+    # its float32 node values, which the compiled lookup gathers from
+    from scipy.interpolate import RegularGridInterpolator
+
+    gamma = C.KATZ_WATER_SOLIDUS_GAMMA.value
+    axes = (table.potential_temperature_c, table.water_wt_pct**gamma, table.depth_km)
+    rng = np.random.default_rng(2003)
+    n = 4000
+    tp = rng.uniform(axes[0][0], axes[0][-1], n)
+    water = rng.uniform(table.water_wt_pct[0], table.water_wt_pct[-1], n)
+    lid = rng.uniform(0.0, table.depth_km[-1], n)
+    got = table.lookup(tp, water, lid)
+    points = np.column_stack([tp, water**gamma, lid])
+    for name, values in (
+        ("melt_fraction_max", table.melt_fraction_max),
+        ("melt_thickness_km", table.melt_thickness_km),
+    ):
+        ref = RegularGridInterpolator(axes, values.astype(np.float32).astype(np.float64))(points)
+        assert_allclose(got[name], ref, rtol=1e-12, atol=1e-12, err_msg=name)
+    solidus_axes = (table.solidus_potential_temperature_c, table.solidus_water_wt_pct**gamma)
+    ref = RegularGridInterpolator(solidus_axes, table.solidus_depth_km)(points[:, :2])
+    assert_allclose(got["solidus_depth_km"], ref, rtol=1e-12, atol=1e-12, equal_nan=True)
+
+
 def test_lookup_outside_table_warns_once(table):
     with pytest.warns(OutsideCalibrationWarning) as record:
         out = table.lookup(

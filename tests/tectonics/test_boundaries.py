@@ -25,12 +25,15 @@ from shapely.geometry import LineString, MultiLineString, Polygon
 from geomelt.errors import InputLayerError, LayerMismatchError, ParameterError
 from geomelt.io.rasters import read_grid
 from geomelt.io.vectors import BOUNDARY_TYPES, read_plate_boundaries
+from geomelt.tectonics import boundaries as boundaries_module
 from geomelt.tectonics.boundaries import (
     BOUNDARY_FIELDS,
     NO_BOUNDARY_CODE,
     NO_FEATURE,
     BoundarySet,
+    aux_sphere_components,
     boundary_fields,
+    lambert_distance_km,
 )
 
 try:
@@ -228,6 +231,26 @@ def test_distances_match_geod(make_case):
         assert_distances_match(got, ref, reach, btype)
         nearest_any = np.minimum(nearest_any, ref)
     assert_distances_match(out["distance_to_boundary_km"], nearest_any, reach, "any type")
+
+
+def test_lambert_distance_matches_geod():
+    # reference: pyproj.Geod.inv (Karney 2013); the documented bound is 2e-6 relative
+    # from 1 m to 5000 km (Lambert 1942 on the auxiliary sphere)
+    rng = np.random.default_rng(1942)
+    n = 3000
+    lon1, lat1 = rng.uniform(-180, 180, n), rng.uniform(-89, 89, n)
+    dist_m = np.exp(rng.uniform(np.log(1.0), np.log(5.0e6), n))
+    lon2, lat2, _ = GEOD.fwd(lon1, lat1, rng.uniform(0, 360, n), dist_m)
+    p = aux_sphere_components(lon1, lat1)
+    q = aux_sphere_components(lon2, lat2)
+    half_chord2 = ((p - q) ** 2).sum(axis=0) / 4.0  # sin^2(sigma / 2) from the chord
+    got = lambert_distance_km(half_chord2, p[2], q[2])
+    assert got.dtype == np.float64 and got.shape == (n,)
+    rel = np.abs(got * 1000.0 - dist_m) / dist_m
+    assert rel.max() < 2e-6, f"{rel.max():.2e}"
+    # inputs broadcast: one point against many
+    one = lambert_distance_km(half_chord2[:5], p[2][0], q[2][:5])
+    assert one.shape == (5,) and one[0] == got[0]
 
 
 def test_nearest_boundary_is_chosen_on_the_ellipsoid():
@@ -523,6 +546,26 @@ def test_threads_share_one_boundary_set(sample_boundaries, sample_grid):
     index = next(ix for ix in sample_boundaries.indexes if ix is not None)
     assert not index.table.flags.writeable
     assert not sample_boundaries.rate_mm_yr.flags.writeable
+
+
+def test_skipping_candidates_by_their_bound_changes_no_answer(
+    sample_boundaries, sample_grid, monkeypatch
+):
+    # The per-cell search skips a tile's candidate when its linear lower bound exceeds the
+    # best distance found. With every bound set to -inf nothing is skipped: the fields
+    # must be the same bits (a bound that is not a lower bound would change some cell).
+    lon, lat = sample_grid.lonlat()
+    pruned = boundary_fields(sample_boundaries, lon, lat)
+    frontier = boundaries_module._tile_frontier
+
+    def without_bounds(*args, **kwargs):
+        ptr, nodes, grad, level = frontier(*args, **kwargs)
+        return ptr, nodes, grad, np.full_like(level, -np.inf)
+
+    monkeypatch.setattr(boundaries_module, "_tile_frontier", without_bounds)
+    exhaustive = boundary_fields(sample_boundaries, lon, lat)
+    for name in BOUNDARY_FIELDS:
+        np.testing.assert_array_equal(pruned[name], exhaustive[name], err_msg=name)
 
 
 def test_tile_size_changes_results_only_within_tolerance(sample_boundaries, sample_grid):
