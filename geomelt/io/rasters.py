@@ -132,9 +132,10 @@ class RasterGrid:
         t = self.transform
         x = t.c + t.a * c + t.b * r
         y = t.f + t.d * c + t.e * r
-        if self.crs.to_epsg() == 4326:
+        wkt = self.crs.to_wkt()
+        if _is_wgs84_lonlat(wkt):
             return x, y
-        lon, lat = _to_wgs84(self.crs.to_wkt()).transform(x, y)
+        lon, lat = _to_wgs84(wkt).transform(x, y)
         return np.asarray(lon), np.asarray(lat)
 
     def cell_area_km2(self, window: Window | None = None) -> np.ndarray:
