@@ -23,7 +23,9 @@ For every size N the script
        (:class:`geomelt.pipeline.writing.OutputSink`) and finished as the run finishes
        them (:func:`geomelt.pipeline.runner.finish_outputs`: Cloud-Optimized GeoTIFFs
        with overviews), but filled with the pixels of an earlier run (or a cheap
-       function of the inputs) instead of the physics;
+       function of the inputs) instead of the physics; with the earlier run's pixels it
+       also writes that run's other outputs (quick-look PNGs encoded again,
+       ``results.gpkg`` and ``report.html`` copied), so that every output is counted;
    (b) ``geomelt`` - ``geomelt run CONFIG -o DIR --overwrite`` (default engine);
    (c) ``per_cell`` - the same physics for a seeded random sample of cells, one cell at a
        time with scalar calls (root finding for the lithosphere base, the reference
@@ -372,10 +374,12 @@ def child_io_floor(
 
     - ``replay_dir`` given: the same window of an earlier geomelt run's GeoTIFF of that
       output (so the floor compresses exactly the bytes the run compresses; the extra
-      reads are timed and reported as ``replay_read_s``), or
+      reads are timed and reported as ``replay_read_s``); then that run's other outputs
+      are written too (:func:`_replay_products`), or
     - ``replay_dir`` empty: a cheap fill, ``crust + k * heat_flow`` (float outputs) or a
       class code picked from the crustal thickness (class outputs). Such fields are dense
       and compress worse than the run's outputs, many of which are mostly nodata or 0.
+      Only the GeoTIFFs are written.
     """
     t_start = time.perf_counter()
     import dataclasses
@@ -509,6 +513,8 @@ def child_io_floor(
                 ds.close()
         t_windows = time.perf_counter()
         files.extend(runner.finish_outputs(writers, workers))  # as execute_run
+    t_finished = time.perf_counter()
+    products = _replay_products(replay, out) if replay is not None else {}
     shutil.rmtree(staging, ignore_errors=True)
     t_end = time.perf_counter()
     result = {
@@ -524,11 +530,39 @@ def child_io_floor(
             "plan": t_plan - t_imports,
             "checksums_and_open": t_open - t_plan,
             "windows": t_windows - t_open,
-            "finish_outputs": t_end - t_windows,
+            "finish_outputs": t_finished - t_windows,
+            "products": t_end - t_finished,
         },
+        "products": products,
         "work_s": t_end - t_imports,
     }
     Path(result_path).write_text(json.dumps(result))
+
+
+def _replay_products(reference: Path, out: Path) -> dict:
+    """Write the run's other outputs with the content of the reference run's.
+
+    The quick-look PNGs are decoded and encoded again with Pillow (the PNG encoder
+    matplotlib's ``savefig`` uses, default settings as there): the floor pays for the
+    encoding, not for drawing the maps. ``results.gpkg`` and ``report.html`` are copied
+    byte for byte (their size is small; making their content is the run's work).
+    """
+    from PIL import Image
+
+    pngs = sorted((reference / "quicklook").glob("*.png"))
+    if pngs:
+        (out / "quicklook").mkdir(exist_ok=True)
+    for src in pngs:
+        with Image.open(src) as img:
+            img.load()
+            info = img.info
+            img.save(out / "quicklook" / src.name, format="PNG", dpi=info.get("dpi"))
+    copied = []
+    for name in ("results.gpkg", "report.html"):
+        if (reference / name).is_file():
+            shutil.copyfile(reference / name, out / name)
+            copied.append(name)
+    return {"png_files": len(pngs), "copied": copied}
 
 
 # =====================================================================================

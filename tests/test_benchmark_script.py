@@ -69,6 +69,10 @@ def test_json_has_every_measurement(tiny_benchmark):
     assert (
         ms["io_floor"]["per_repeat"][0]["out_files"] == ms["geomelt"]["per_repeat"][0]["out_files"]
     )
+    # ... and, replaying the reference run, its quick-looks, GeoPackage and report
+    floor_products = ms["io_floor"]["per_repeat"][0]["child"]["products"]
+    assert floor_products["png_files"] > 10
+    assert floor_products["copied"] == ["results.gpkg", "report.html"]
     ratios = entry["ratios"]
     assert set(ratios) == {"b_over_a", "c_over_b"}
     for r in ratios.values():
