@@ -117,6 +117,40 @@ def test_missing_required_input(tiny_region, tmp_path):
     assert "heat_flow_mw_m2" in res.output and "--input" in res.output
 
 
+@pytest.mark.parametrize(
+    ("in_config", "option", "expected"),
+    [
+        ("", [], ("threads", None)),
+        ('scheduler = "tcp://127.0.0.1:8786"', [], ("dask", "tcp://127.0.0.1:8786")),
+        ('scheduler = "tcp://127.0.0.1:8786"', ["--scheduler", "local"], ("dask", "local")),
+        ("", ["--engine", "dask"], ("dask", None)),
+    ],
+    ids=["default", "config-key", "option-wins", "engine-without-scheduler"],
+)
+def test_scheduler_from_config_or_option(
+    tiny_region, tmp_path, monkeypatch, in_config, option, expected
+):
+    # [run] scheduler in the configuration picks the dask engine; --scheduler overrides it.
+    import importlib
+
+    run_cmd = importlib.import_module("geomelt.cli.run_cmd")  # the module, not the command
+
+    seen = {}
+
+    class Stop(Exception):
+        pass
+
+    def fake_execute_run(plan, out_dir, **kwargs):
+        seen.update(kwargs)
+        raise Stop
+
+    monkeypatch.setattr(run_cmd, "execute_run", fake_execute_run)
+    cfg = tiny_region.parent / "scheduler.toml"
+    cfg.write_text(tiny_region.read_text().replace("[run]\n", f"[run]\n{in_config}\n"))
+    CliRunner().invoke(main, ["run", str(cfg), "-o", str(tmp_path / "o"), *option])
+    assert (seen["engine"], seen["scheduler"]) == expected
+
+
 def test_dry_run_writes_nothing(tiny_region, tmp_path):
     out = tmp_path / "o"
     res = invoke("run", tiny_region, "-o", out, "--dry-run")

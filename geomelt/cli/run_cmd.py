@@ -87,20 +87,26 @@ def print_summary(result: RunResult) -> None:
     type=click.Choice(ENGINES),
     default="threads",
     show_default=True,
-    help="Where windows are computed: a thread pool here, this thread only, or a dask cluster.",
+    help=(
+        "Where windows are computed: a thread pool here, this thread only, or a dask cluster "
+        "(the one --scheduler names; a local one without it)."
+    ),
 )
 @click.option(
     "-w",
     "--workers",
     type=click.IntRange(min=0),
     default=0,
-    help="Worker threads (or local dask processes); 0 = one per core.",
+    help="Worker threads (or local dask worker processes); 0 = one per core.",
 )
 @click.option(
     "--scheduler",
     metavar="ADDRESS",
     default=None,
-    help="dask scheduler address (tcp://host:8786), or 'local'; implies --engine dask.",
+    help=(
+        "dask scheduler address (tcp://host:8786), or 'local' for a cluster of worker "
+        "processes on this machine; implies --engine dask. Default: [run] scheduler of CONFIG."
+    ),
 )
 @click.option(
     "--progress/--no-progress",
@@ -145,6 +151,7 @@ def run_cmd(
         click.echo(json.dumps(plan.as_dict(), indent=2, allow_nan=False))
         return
     show = sys.stderr.isatty() if progress is None else progress
+    scheduler = scheduler or plan.config.run["scheduler"] or None
     if scheduler:
         engine = "dask"
     result = execute_run(

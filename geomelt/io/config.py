@@ -15,6 +15,7 @@ The file is parsed as data only (TOML has no expressions). Layout::
     [run]
     reference_grid = "crustal_thickness_km"        # which input defines the grid
     block_size = 256                               # window size in cells
+    scheduler = "tcp://host:8786"                  # optional: a dask cluster
 """
 
 from __future__ import annotations
@@ -38,6 +39,12 @@ __all__ = ["RUN_OPTIONS", "TABLES", "RunConfig", "load_config", "parse_value"]
 RUN_OPTIONS: dict[str, tuple[type, Any, str]] = {
     "reference_grid": (str, "crustal_thickness_km", "input raster that defines the output grid"),
     "block_size": (int, 256, "window size in cells (multiple of 16)"),
+    "scheduler": (
+        str,
+        "",
+        "dask scheduler address (tcp://host:8786) or 'local' to compute the windows on a dask "
+        "cluster; empty: this machine's thread pool",
+    ),
 }
 """Keys of the ``[run]`` table: (type, default, meaning)."""
 
@@ -108,6 +115,13 @@ def _check_run_option(key: str, value: Any, where: str) -> Any:
     if key == "block_size" and not (16 <= value <= 8192 and value % 16 == 0):
         msg = (
             f"{where}: [run] block_size must be a multiple of 16 between 16 and 8192, got {value}."
+        )
+        raise ConfigError(msg)
+    if key == "scheduler" and value not in ("", "local") and "://" not in value:
+        msg = (
+            f"{where}: [run] scheduler must be a dask scheduler address such as "
+            f'"tcp://host:8786", "local" for a cluster of worker processes on this machine, '
+            f'or "" for none; got {value!r}.'
         )
         raise ConfigError(msg)
     if key == "reference_grid":
