@@ -1231,12 +1231,12 @@ def print_table(size: int, entry: dict) -> None:
 
 
 def _source_hash() -> str:
-    """Hash of every geomelt source file: tells whether the code changed between measurements
-    (other people may be editing the package while the benchmark runs)."""
+    """Hash of every geomelt source file (Python and Cython): tells whether the code changed
+    between measurements (other people may be editing the package while the benchmark runs)."""
     import hashlib
 
     h = hashlib.sha256()
-    for path in sorted((REPO / "geomelt").rglob("*.py")):
+    for path in sorted([*(REPO / "geomelt").rglob("*.py"), *(REPO / "geomelt").rglob("*.pyx")]):
         h.update(path.relative_to(REPO).as_posix().encode())
         h.update(path.read_bytes())
     return h.hexdigest()[:12]
