@@ -26,10 +26,12 @@ Method
    1996). For each tile a branch-and-bound search over the trees keeps the
    nodes that can hold the nearest boundary point of some cell of the tile,
    opening a node until its width is below ``rtol`` times its distance to
-   the tile, or below ``atol_km``. Each cell then takes the nearest chord
-   among its tile's nodes, skipping those that a linear lower bound over
-   the tile already rules out. Tiles are fixed on the sphere, so the result
-   for a cell does not depend on the window it is computed in.
+   the tile, or below ``atol_km`` (numpy, a few calls per tile). Each cell
+   then takes the nearest chord among its tile's nodes, skipping those that a
+   linear lower bound over the tile already rules out (compiled, one cell at
+   a time without Python's global lock: ``geomelt.tectonics._kernels``).
+   Tiles are fixed on the sphere, so the result for a cell does not depend on
+   the window it is computed in.
 4. Candidates are compared by their distance on the ellipsoid: the distance
    from the cell to the foot of the perpendicular on each chord is converted
    with Lambert's (1942) formula on the auxiliary sphere (relative error
