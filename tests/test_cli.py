@@ -124,13 +124,27 @@ def test_missing_required_input(tiny_region, tmp_path):
         ('scheduler = "tcp://127.0.0.1:8786"', [], ("dask", "tcp://127.0.0.1:8786")),
         ('scheduler = "tcp://127.0.0.1:8786"', ["--scheduler", "local"], ("dask", "local")),
         ("", ["--engine", "dask"], ("dask", None)),
+        ('scheduler = "tcp://127.0.0.1:8786"', ["--engine", "threads"], ("threads", None)),
+        (
+            'scheduler = "tcp://127.0.0.1:8786"',
+            ["--engine", "dask"],
+            ("dask", "tcp://127.0.0.1:8786"),
+        ),
     ],
-    ids=["default", "config-key", "option-wins", "engine-without-scheduler"],
+    ids=[
+        "default",
+        "config-key",
+        "option-wins",
+        "engine-without-scheduler",
+        "explicit-engine-wins",
+        "dask-engine-takes-config-key",
+    ],
 )
 def test_scheduler_from_config_or_option(
     tiny_region, tmp_path, monkeypatch, in_config, option, expected
 ):
-    # [run] scheduler in the configuration picks the dask engine; --scheduler overrides it.
+    # [run] scheduler in the configuration picks the dask engine unless --engine names
+    # another; --scheduler overrides the key.
     import importlib
 
     run_cmd = importlib.import_module("geomelt.cli.run_cmd")  # the module, not the command

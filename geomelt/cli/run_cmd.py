@@ -85,11 +85,11 @@ def print_summary(result: RunResult) -> None:
 @click.option(
     "--engine",
     type=click.Choice(ENGINES),
-    default="threads",
-    show_default=True,
+    default=None,
     help=(
         "Where windows are computed: a thread pool here, this thread only, or a dask cluster "
-        "(the one --scheduler names; a local one without it)."
+        "(the one --scheduler or [run] scheduler names; a local one without it). Default: "
+        "dask when [run] scheduler is set, else threads."
     ),
 )
 @click.option(
@@ -151,9 +151,11 @@ def run_cmd(
         click.echo(json.dumps(plan.as_dict(), indent=2, allow_nan=False))
         return
     show = sys.stderr.isatty() if progress is None else progress
-    scheduler = scheduler or plan.config.run["scheduler"] or None
-    if scheduler:
+    if scheduler:  # the option names a cluster: dask, whatever --engine says
         engine = "dask"
+    elif engine in (None, "dask"):  # an engine given explicitly wins over the configuration
+        scheduler = plan.config.run["scheduler"] or None
+        engine = "dask" if scheduler else (engine or "threads")
     result = execute_run(
         plan,
         out_dir,
