@@ -962,7 +962,7 @@ def _water_nodes(w_lo, w_hi, n):
     return nodes
 
 
-def _uniform_axis(nodes) -> tuple[float, float, float, float]:
+def _uniform_axis(nodes) -> tuple[float, float, int, float]:
     """First node, spacing, index of the last cell and of the last node of a uniform axis
     (a row of the axes given to :func:`geomelt.physics._kernels.melting_table_lookup`)."""
     return (float(nodes[0]), float(nodes[1] - nodes[0]), nodes.size - 2, float(nodes.size - 1))
