@@ -2,12 +2,13 @@
 # cython: initializedcheck=False
 """Compiled per-cell kernels of the physics layer (Cython, without the GIL).
 
-Only the per-cell step of a table lookup lives here, written with the same
-operations in the same order as the numpy formulation it replaced (the
-results are bit-identical to it), so each cell gets the same bits whatever
-block it is computed in. The tables themselves, and every equation, stay in
-the modules that document them
-(:class:`geomelt.physics.decompression.MeltingTable`).
+Only the per-cell step of a table lookup lives here: locating a cell on the
+table's uniform axes and interpolating (trilinear over potential temperature,
+water^gamma and depth; bilinear for the solidus depth), one cell at a time,
+so each cell gets the same bits whatever block it is computed in. The tables
+themselves, and every equation, stay in the module that documents them
+(:class:`geomelt.physics.decompression.MeltingTable`); the interpolation is
+tested against SciPy's ``RegularGridInterpolator``.
 """
 
 from libc.math cimport NAN, isnan

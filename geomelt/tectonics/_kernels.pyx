@@ -107,7 +107,7 @@ cdef inline double _left_of_chord(
     return x0 * normal_b[k, 0] + y0 * normal_b[k, 1] + z0 * normal_b[k, 2]
 
 
-def search_type(
+def nearest_line_of_type(
     const double[:, ::1] pc,
     const double[:, ::1] offset,
     const int64_t[::1] cell_tile,

@@ -78,7 +78,7 @@ from pyproj import CRS, Geod, Transformer
 
 from geomelt.errors import InputLayerError, LayerMismatchError, ParameterError
 from geomelt.io.vectors import BOUNDARY_TYPES, UPPER_PLATE_SIDES
-from geomelt.tectonics._kernels import lambert_many_km, search_type
+from geomelt.tectonics._kernels import lambert_many_km, nearest_line_of_type
 from geomelt.units import km_to_m
 
 __all__ = [
@@ -1213,7 +1213,7 @@ def boundary_fields(
                 index, centres, radii, reach_rad, boundaries.rtol, atol_rad
             )
             side = f"{btype}_side"
-            search_type(
+            nearest_line_of_type(
                 pc,
                 offset,
                 cell_tile,
